@@ -1,0 +1,32 @@
+"""degreescope's engine: accurate polynomial fits, degree sweeps and data intake.
+
+Public surface (everything else is private and may change):
+
+    fit_polynomial(x, y, degree, *, weights=None, through_origin=False) -> PolynomialFit
+    sweep_degrees(x, y, *, degrees=range(0, 13), folds=10, holdout=None, ordered=False,
+                  repeats=1, seed=0, weights=None) -> DegreeSweep
+
+Errors raised on purpose derive from DegreescopeError:
+
+    DegreescopeError
+    ├── IntakeError
+    │   └── FileTooLargeError
+    ├── ColumnError
+    └── FitError
+
+This package never imports the dashboard (``app``), dash or plotly.
+"""
+
+from ._errors import ColumnError, DegreescopeError, FileTooLargeError, FitError, IntakeError, RankWarning
+from ._polyfit import PolynomialFit, fit_polynomial
+
+__all__ = [
+    "ColumnError",
+    "DegreescopeError",
+    "FileTooLargeError",
+    "FitError",
+    "IntakeError",
+    "PolynomialFit",
+    "RankWarning",
+    "fit_polynomial",
+]
