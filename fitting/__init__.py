@@ -19,9 +19,11 @@ This package never imports the dashboard (``app``), dash or plotly.
 
 from ._errors import ColumnError, DegreescopeError, FileTooLargeError, FitError, IntakeError, RankWarning
 from ._polyfit import PolynomialFit, fit_polynomial
+from ._sweep import DegreeSweep, sweep_degrees
 
 __all__ = [
     "ColumnError",
+    "DegreeSweep",
     "DegreescopeError",
     "FileTooLargeError",
     "FitError",
@@ -29,4 +31,5 @@ __all__ = [
     "PolynomialFit",
     "RankWarning",
     "fit_polynomial",
+    "sweep_degrees",
 ]

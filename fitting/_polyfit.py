@@ -39,6 +39,7 @@ from typing import Any
 
 import numpy as np
 from scipy import stats
+from scipy.linalg import lapack as _lapack
 from scipy.linalg import solve_triangular
 
 from . import _basis
@@ -106,9 +107,19 @@ def _solve_rtr(r: np.ndarray, g: np.ndarray) -> np.ndarray:
 
 
 def qr_r(a: np.ndarray) -> np.ndarray:
-    """R of a Householder QR of ``a`` (m, k), padded with zero rows to (k, k) when m < k."""
-    r = np.linalg.qr(a, mode="r")
-    k = a.shape[1]
+    """R of a Householder QR of ``a`` (m, k), padded with zero rows to (k, k) when m < k.
+
+    Calls LAPACK dgeqrf directly and may overwrite ``a`` when it is already a
+    Fortran-ordered float64 array (pass a temporary). Q is never formed.
+    """
+    a = np.asfortranarray(a, dtype=np.float64)
+    m, k = a.shape
+    if m == 0:
+        return np.zeros((k, k))
+    qr, _tau, _work, info = _lapack.dgeqrf(a, overwrite_a=1)
+    if info != 0:  # pragma: no cover - LAPACK argument error
+        raise FitError(f"The QR factorisation failed (LAPACK info {info}); please report this data set.")
+    r = np.triu(qr[: min(m, k)])
     if r.shape[0] < k:
         pad = np.zeros((k, k))
         pad[: r.shape[0]] = r

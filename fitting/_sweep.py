@@ -1,0 +1,667 @@
+"""A degree x fold validation sweep that costs about one fit.
+
+How it works
+------------
+Rows are split into blocks (one per fold, or train/test for a holdout). Each
+block's rows are reduced once to the triangular factor R_b of its augmented,
+weighted design [A | y] (Chebyshev basis on a common domain map, all degrees up
+to the highest at once). Everything else is done on these small factors:
+
+* Nested degrees share one factor: the leading (d + 1) x (d + 1) block of R
+  belongs to degree d, the first d + 1 entries of its last column are Q^T y,
+  and the rest of that column holds the residual of degree d.
+* A training set's factor is the R of the stacked factors of its blocks (TSQR),
+  so no row is touched twice.
+* A test block's squared error for coefficients c is ||R_test [-c; 1]||^2, since
+  Q is orthogonal: the test error needs no pass over the test rows either.
+
+The results equal a plain refit on every (degree, fold) to rounding error;
+tests check this against scikit-learn's KFold and PredefinedSplit.
+
+Recommendation
+--------------
+By default the one-standard-error rule: the smallest degree whose mean test
+RMSE is within one standard error (across folds) of the minimum. With a
+single holdout there is no standard error; the degree with the lowest test
+RMSE is recommended instead, and the result says so.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any, Iterable
+
+import numpy as np
+from scipy import stats
+from scipy.linalg import solve_triangular
+
+from . import _basis
+from ._errors import FitError
+from ._polyfit import condition_of, qr_r, validate_xyw
+
+__all__ = ["DegreeSweep", "sweep_degrees", "Block", "Split", "sweep_from_blocks", "block_factor"]
+
+MAX_DEGREE = 20
+# thresholds for diagnoses: common practice, no source; chosen for this tool
+CONDITION_LIMIT = 1e8  # condition number of the mapped Chebyshev design
+OSCILLATION_FACTOR = 0.5  # curve beyond the y range by more than half the range
+BAND_INFLATION_LIMIT = 3.0  # confidence band (1 SE) above 3x the residual SD between points
+NO_SE_RISE = 0.10  # with no SE, a 10 % rise over the minimum counts as a rise
+
+
+@dataclass
+class Block:
+    """The reduced form of a set of rows: R of [A | y] (weighted) and sums for R²."""
+
+    r: np.ndarray  # (P + 1, P + 1) upper triangular
+    n: int
+    wsum: float
+    wysum: float
+
+    @staticmethod
+    def merge(blocks: Iterable[Block]) -> Block:
+        blocks = [b for b in blocks if b.n > 0]
+        if not blocks:
+            raise FitError("A training or test set is empty; use fewer folds or a different split.")
+        if len(blocks) == 1:
+            return blocks[0]
+        r = qr_r(np.vstack([b.r for b in blocks]))
+        return Block(r=r, n=sum(b.n for b in blocks), wsum=sum(b.wsum for b in blocks), wysum=sum(b.wysum for b in blocks))
+
+
+@dataclass(frozen=True)
+class Split:
+    """One train/test split, given as block labels."""
+
+    test: tuple[int, ...]
+    train: tuple[int, ...]
+
+
+def block_factor(t: np.ndarray, y: np.ndarray, ncols: int, w: np.ndarray | None = None) -> Block:
+    """Reduce rows (mapped x ``t``, y, weights) to a Block with ``ncols`` basis columns."""
+    n = t.shape[0]
+    rows = np.empty((ncols + 1, n))
+    _basis.chebyshev_rows(t, ncols, out=rows[:ncols])
+    rows[ncols] = y
+    if w is not None:
+        rows *= np.sqrt(w)
+        wsum, wysum = float(w.sum()), float(w @ y)
+    else:
+        wsum, wysum = float(n), float(y.sum())
+    if n == 0:
+        return Block(r=np.zeros((ncols + 1, ncols + 1)), n=0, wsum=0.0, wysum=0.0)
+    return Block(r=qr_r(rows.T), n=n, wsum=wsum, wysum=wysum)
+
+
+# ----------------------------------------------------------------------------
+# the result
+
+
+@dataclass(frozen=True, eq=False)
+class DegreeSweep:
+    """Train and test error for every degree, with a recommendation.
+
+    Arrays are indexed like ``degrees``; ``*_folds`` arrays are
+    (n_degrees, n_splits). A degree that failed holds NaN and is explained in
+    ``failed_degrees``.
+    """
+
+    degrees: np.ndarray
+    train_rmse: np.ndarray
+    test_rmse: np.ndarray
+    test_rmse_se: np.ndarray
+    train_rmse_folds: np.ndarray
+    test_rmse_folds: np.ndarray
+    train_r2: np.ndarray
+    test_r2: np.ndarray
+    aic: np.ndarray
+    bic: np.ndarray
+    condition_numbers: np.ndarray
+    overfit: np.ndarray
+    recommended_degree: int
+    recommendation_rule: str
+    recommendation: str
+    min_test_degree: int
+    aic_degree: int
+    bic_degree: int
+    overfitting_from: int | None
+    scheme: str
+    n_splits: int
+    rows_used: int
+    n_train_min: int
+    warnings: tuple[str, ...]
+    degree_warnings: dict[int, tuple[str, ...]]
+    failed_degrees: dict[int, str]
+    test_mask: np.ndarray | None = None  # single split only: which rows were held out
+    domain: tuple[float, float] = (0.0, 1.0)
+    # stable form of the display fit for each degree (holdout: its training rows; folds: all rows)
+    offset: float = 0.0
+    scale: float = 1.0
+    display_coefficients: dict[int, np.ndarray] = field(default_factory=dict)
+    display_r: np.ndarray | None = None
+    display_n: int = 0
+    display_domain: tuple[float, float] = (0.0, 1.0)
+
+    def index(self, degree: int) -> int:
+        hits = np.nonzero(self.degrees == int(degree))[0]
+        if hits.size == 0:
+            raise FitError(f"Degree {degree} is not in this sweep ({self.degrees.min()}–{self.degrees.max()}).")
+        return int(hits[0])
+
+    # -- the display fit ----------------------------------------------------
+    def _display_parts(self, degree: int):
+        if degree not in self.display_coefficients:
+            raise FitError(f"Degree {degree} has no fit in this sweep: {self.failed_degrees.get(degree, 'not swept')}.")
+        p = degree + 1
+        r = self.display_r[:p, :p]
+        rss = float(np.sum(self.display_r[p:, -1] ** 2))
+        dof = self.display_n - p
+        sd = math.sqrt(rss / dof) if dof > 0 else float("nan")
+        return self.display_coefficients[degree], r, sd, dof
+
+    def curve(self, degree: int, x) -> np.ndarray:
+        """The display fit of ``degree`` evaluated at x."""
+        coef, _, _, _ = self._display_parts(degree)
+        return _basis.chebyshev_values(_basis.to_window(x, self.offset, self.scale), coef)
+
+    def band(self, degree: int, x, kind: str = "confidence", level: float = 0.95):
+        """(lower, upper) confidence or prediction band of the display fit (double precision)."""
+        coef, r, sd, dof = self._display_parts(degree)
+        x = np.asarray(x, dtype=np.float64)
+        t = _basis.to_window(x, self.offset, self.scale)
+        yhat = _basis.chebyshev_values(t, coef)
+        if dof <= 0:
+            nan = np.full_like(yhat, np.nan)
+            return nan, nan.copy()
+        a = _basis.chebyshev_vander(np.atleast_1d(t), degree + 1)
+        u = solve_triangular(r, a.T, trans="T")
+        se = sd * np.sqrt(np.sum(u * u, axis=0))
+        if kind == "prediction":
+            se = np.sqrt(se**2 + sd**2)
+        elif kind != "confidence":
+            raise FitError(f'Interval kind must be "confidence" or "prediction", not {kind!r}.')
+        q = stats.t.ppf(0.5 + float(level) / 2.0, dof)
+        return yhat - q * se, yhat + q * se
+
+    def warnings_for(self, degree: int) -> tuple[str, ...]:
+        """Plain-word diagnoses that stand at ``degree``."""
+        return self.degree_warnings.get(int(degree), ())
+
+    def to_dict(self) -> dict[str, Any]:
+        def arr(a):
+            return [None if not np.isfinite(v) else float(v) for v in np.asarray(a, dtype=float)]
+
+        return {
+            "degrees": [int(d) for d in self.degrees],
+            "train_rmse": arr(self.train_rmse),
+            "test_rmse": arr(self.test_rmse),
+            "test_rmse_se": None if self.n_splits < 2 else arr(self.test_rmse_se),
+            "test_rmse_folds": [arr(row) for row in self.test_rmse_folds],
+            "train_r2": arr(self.train_r2),
+            "test_r2": arr(self.test_r2),
+            "aic": arr(self.aic),
+            "bic": arr(self.bic),
+            "condition_numbers": arr(self.condition_numbers),
+            "recommended_degree": self.recommended_degree,
+            "recommendation_rule": self.recommendation_rule,
+            "recommendation": self.recommendation,
+            "min_test_degree": self.min_test_degree,
+            "aic_degree": self.aic_degree,
+            "bic_degree": self.bic_degree,
+            "overfitting_from": self.overfitting_from,
+            "scheme": self.scheme,
+            "n_splits": self.n_splits,
+            "rows_used": self.rows_used,
+            "warnings": list(self.warnings),
+            "degree_warnings": {str(k): list(v) for k, v in self.degree_warnings.items()},
+            "failed_degrees": {str(k): v for k, v in self.failed_degrees.items()},
+        }
+
+
+# ----------------------------------------------------------------------------
+# splitting
+
+
+def _partition(x, *, folds, holdout, ordered, repeats, seed):
+    """Return (labels_per_partition, splits_per_partition, scheme) for the rows.
+
+    Each partition is an int label per row (-1: always in training) with a list
+    of Splits over those labels.
+    """
+    n = x.size
+    if holdout is not None:
+        try:
+            frac = float(holdout)
+        except (TypeError, ValueError):
+            raise FitError(f"The holdout must be a fraction between 0 and 1 (e.g. 0.25), not {holdout!r}.") from None
+        if not (0.0 < frac < 1.0):
+            raise FitError(f"The holdout must be a fraction between 0 and 1 (e.g. 0.25), not {holdout!r}.")
+        n_test = int(math.ceil(frac * n))
+        if n_test < 1 or n - n_test < 2:
+            raise FitError(
+                f"A {frac:.0%} holdout of {n} rows leaves {n - n_test} for training and {n_test} for testing; "
+                "use a different fraction or more data."
+            )
+        parts = []
+        if ordered:
+            order = np.argsort(x, kind="stable")
+            labels = np.zeros(n, dtype=np.int64)
+            labels[order[n - n_test :]] = 1
+            parts.append((labels, [Split(test=(1,), train=(0,))]))
+            scheme = f"ordered holdout: the highest {frac:.0%} of x held out"
+            if repeats > 1:
+                scheme += " (repeats have no effect on an ordered holdout)"
+        else:
+            from sklearn.model_selection import ShuffleSplit
+
+            splitter = ShuffleSplit(n_splits=int(repeats), test_size=n_test, random_state=seed)
+            for _, test_idx in splitter.split(np.empty((n, 1))):
+                labels = np.zeros(n, dtype=np.int64)
+                labels[test_idx] = 1
+                parts.append((labels, [Split(test=(1,), train=(0,))]))
+            scheme = f"{frac:.0%} random holdout (seed {seed}" + (f", {repeats} repeats)" if repeats > 1 else ")")
+        return parts, scheme
+
+    if ordered:
+        raise FitError("An ordered split needs a holdout fraction; for folds, leave ordered off.")
+    if np.ndim(folds) == 0:
+        try:
+            k = int(folds)
+        except (TypeError, ValueError):
+            raise FitError(f"Folds must be a whole number or one label per row, not {folds!r}.") from None
+        if k < 2:
+            raise FitError(f"Cross-validation needs at least 2 folds, not {k}; 5 or 10 are common.")
+        if k > n:
+            raise FitError(
+                f"Cannot make {k} folds from {n} rows; use at most {n} folds "
+                f"(10 is common, or leave-one-out with {n})."
+            )
+        from sklearn.model_selection import KFold, RepeatedKFold
+
+        splitter = (
+            KFold(n_splits=k, shuffle=True, random_state=seed)
+            if repeats <= 1
+            else RepeatedKFold(n_splits=k, n_repeats=int(repeats), random_state=seed)
+        )
+        parts = []
+        labels = np.empty(n, dtype=np.int64)
+        for i, (_, test_idx) in enumerate(splitter.split(np.empty((n, 1)))):
+            f = i % k
+            labels[test_idx] = f
+            if f == k - 1:
+                parts.append((labels.copy(), [Split(test=(j,), train=tuple(o for o in range(k) if o != j)) for j in range(k)]))
+        scheme = f"{k}-fold cross-validation (seed {seed}" + (f", {repeats} repeats)" if repeats > 1 else ")")
+        return parts, scheme
+
+    raw = np.asarray(folds).ravel()
+    if raw.size != n:
+        raise FitError(f"Expected one fold label per row; got {raw.size} labels for {n} rows.")
+    if raw.dtype.kind in "iu":
+        uniq = np.unique(raw[raw >= 0])
+        labels = np.full(n, -1, dtype=np.int64)
+        for j, u in enumerate(uniq):
+            labels[raw == u] = j
+    else:
+        uniq, labels = np.unique(raw.astype(str), return_inverse=True)
+        labels = labels.astype(np.int64)
+    k = uniq.size
+    if k < 2:
+        raise FitError(f"Grouped or predefined folds need at least 2 distinct labels; found {k}. Choose another group column.")
+    others = lambda j: tuple(o for o in range(k) if o != j) + ((-1,) if (labels == -1).any() else ())  # noqa: E731
+    splits = [Split(test=(j,), train=others(j)) for j in range(k)]
+    return [(labels, splits)], f"{k} predefined or grouped folds"
+
+
+# ----------------------------------------------------------------------------
+# the sweep
+
+
+def sweep_degrees(
+    x,
+    y,
+    *,
+    degrees=range(0, 13),
+    folds=10,
+    holdout=None,
+    ordered: bool = False,
+    repeats: int = 1,
+    seed: int = 0,
+    weights=None,
+) -> DegreeSweep:
+    """Train and test RMSE for every degree, by k-fold cross-validation or holdout.
+
+    Parameters
+    ----------
+    x, y : array-like of float.
+    degrees : iterable of int, default=range(0, 13)
+        Degrees above what the training sets can carry are left out, with a warning.
+    folds : int or array-like, default=10
+        Number of shuffled folds (scikit-learn's KFold with ``shuffle=True`` and
+        ``random_state=seed``), or one fold label per row (predefined or grouped
+        folds; integer label -1 keeps a row in training, as in PredefinedSplit).
+    holdout : float, default=None
+        Test fraction for a holdout instead of folds.
+    ordered : bool, default=False
+        With ``holdout``: hold out the highest x values, to see how each degree extrapolates.
+    repeats : int, default=1
+        Repeat the shuffled folds or the random holdout with new shuffles.
+    seed : int, default=0
+        The same seed gives the same split, every time.
+    weights : array-like of positive floats, default=None
+    """
+    x, y, w = validate_xyw(x, y, weights)
+    try:
+        repeats = int(repeats)
+        seed = int(seed)
+    except (TypeError, ValueError):
+        raise FitError("Repeats and seed must be whole numbers.") from None
+    if repeats < 1:
+        raise FitError(f"Repeats must be at least 1, not {repeats}.")
+    try:
+        degs = sorted({int(d) for d in degrees})
+    except (TypeError, ValueError):
+        raise FitError(f"Degrees must be whole numbers, not {degrees!r}.") from None
+    if not degs or degs[0] < 0:
+        raise FitError("Give at least one degree, all of them 0 or more.")
+    notes: list[str] = []
+    if degs[-1] > MAX_DEGREE:
+        notes.append(f"Degrees above {MAX_DEGREE} were left out: double-precision data rarely support them.")
+        degs = [d for d in degs if d <= MAX_DEGREE] or [MAX_DEGREE]
+
+    parts, scheme = _partition(x, folds=folds, holdout=holdout, ordered=ordered, repeats=repeats, seed=seed)
+
+    # cap the degrees by the distinct x values of the smallest training set
+    cap = _carryable_degree(x, parts)
+    if degs[-1] > cap:
+        dropped = [d for d in degs if d > cap]
+        notes.append(
+            f"Degrees {_span(dropped)} were left out: the smallest training set has only {cap + 1} distinct x "
+            f"values, so degree {cap} is the highest it can carry."
+        )
+        degs = [d for d in degs if d <= cap] or [cap]
+
+    ncols = degs[-1] + 1
+    offset, scale = _basis.domain_map(float(x.min()), float(x.max()))
+    t = _basis.to_window(x, offset, scale)
+    partitions = []
+    for labels, splits in parts:
+        blocks = {}
+        for lab in np.unique(labels):
+            idx = np.nonzero(labels == lab)[0]
+            blocks[int(lab)] = block_factor(t[idx], y[idx], ncols, None if w is None else w[idx])
+        partitions.append((blocks, splits))
+    display_block = None
+    test_mask = None
+    if holdout is not None and len(parts) >= 1:
+        blocks0, splits0 = partitions[0]
+        display_block = Block.merge(blocks0[b] for b in splits0[0].train)
+        test_mask = parts[0][0] == 1
+    result = sweep_from_blocks(
+        partitions,
+        degs,
+        ncols=ncols,
+        offset=offset,
+        scale=scale,
+        domain=(float(x.min()), float(x.max())),
+        y_range=(float(y.min()), float(y.max())),
+        scheme=scheme,
+        notes=notes,
+        single_split_rule=holdout is not None and repeats == 1 or (holdout is not None and ordered),
+        display_block=display_block,
+        display_domain=(
+            (float(x[~test_mask].min()), float(x[~test_mask].max())) if test_mask is not None else (float(x.min()), float(x.max()))
+        ),
+        test_mask=test_mask,
+    )
+    return result
+
+
+def _span(ds: list[int]) -> str:
+    return f"{ds[0]}" if len(ds) == 1 else f"{ds[0]}–{ds[-1]}"
+
+
+def _carryable_degree(x: np.ndarray, parts) -> int:
+    """Highest degree every training set (and the full data) can carry: distinct x - 1."""
+    uniq, inv = np.unique(x, return_inverse=True)
+    best = uniq.size - 1
+    for labels, splits in parts:
+        lab_ids, lab_inv = np.unique(labels, return_inverse=True)
+        max_test_rows = max(int(np.isin(labels, s.test).sum()) for s in splits)
+        if uniq.size - max_test_rows - 1 >= MAX_DEGREE:
+            continue  # cannot bind: plenty of distinct values remain in every training set
+        counts = np.zeros((uniq.size, lab_ids.size), dtype=np.int64)
+        np.add.at(counts, (inv, lab_inv), 1)
+        for s in splits:
+            cols = [int(np.searchsorted(lab_ids, b)) for b in s.train if b in lab_ids]
+            distinct = int((counts[:, cols].sum(axis=1) > 0).sum())
+            best = min(best, distinct - 1)
+    return max(best, 0)
+
+
+def sweep_from_blocks(
+    partitions,
+    degs: list[int],
+    *,
+    ncols: int,
+    offset: float,
+    scale: float,
+    domain: tuple[float, float],
+    y_range: tuple[float, float],
+    scheme: str,
+    notes: list[str] | None = None,
+    single_split_rule: bool = False,
+    display_block: Block | None = None,
+    display_domain: tuple[float, float] | None = None,
+    test_mask: np.ndarray | None = None,
+) -> DegreeSweep:
+    """Everything after the rows have been reduced to Blocks (shared with the streaming path).
+
+    ``partitions`` is a list of (blocks: dict label -> Block, splits: list[Split]).
+    """
+    notes = list(notes or [])
+    ndeg = len(degs)
+    all_splits = [(blocks, s) for blocks, splits in partitions for s in splits]
+    nspl = len(all_splits)
+    tr_rmse = np.full((ndeg, nspl), np.nan)
+    te_rmse = np.full((ndeg, nspl), np.nan)
+    tr_r2 = np.full((ndeg, nspl), np.nan)
+    te_r2 = np.full((ndeg, nspl), np.nan)
+    failed: dict[int, str] = {}
+    n_train_min = None
+    eps = np.finfo(np.float64).eps
+    for j, (blocks, s) in enumerate(all_splits):
+        train = Block.merge(blocks[b] for b in s.train if b in blocks)
+        test = Block.merge(blocks[b] for b in s.test if b in blocks)
+        n_train_min = train.n if n_train_min is None else min(n_train_min, train.n)
+        rt = train.r
+        rinv = _triangular_inverse(rt[:ncols, :ncols])
+        dg = np.abs(np.diag(rt))[:ncols]
+        coefs = np.zeros((ncols + 1, ndeg))
+        coefs[ncols] = 1.0
+        for i, d in enumerate(degs):
+            p = d + 1
+            if dg[:p].min() <= 1e3 * max(train.n, p) * eps * dg[:p].max():
+                failed.setdefault(d, f"the training set of split {j + 1} is rank deficient at degree {d}")
+                continue
+            # the inverse of a leading block of a triangular matrix is the leading block of its inverse
+            coefs[:p, i] = -(rinv[:p, :p] @ rt[:p, ncols])
+            rss = float(np.sum(rt[p:, ncols] ** 2))
+            tr_rmse[i, j] = math.sqrt(max(rss, 0.0) / train.wsum)
+            tss = _tss(train)
+            tr_r2[i, j] = 1.0 - rss / tss if tss > 0 else np.nan
+        res = test.r @ coefs
+        trss = np.sum(res * res, axis=0)
+        ok = ~np.isnan(tr_rmse[:, j])
+        te_rmse[ok, j] = np.sqrt(trss[ok] / test.wsum)
+        tts = _tss(test)
+        if tts > 0:
+            te_r2[ok, j] = 1.0 - trss[ok] / tts
+    # a degree that failed in any split is reported for that degree only
+    for d in failed:
+        i = degs.index(d)
+        tr_rmse[i] = te_rmse[i] = tr_r2[i] = te_r2[i] = np.nan
+
+    train_rmse = np.nanmean(tr_rmse, axis=1) if nspl else np.full(ndeg, np.nan)
+    with np.errstate(invalid="ignore"):
+        test_rmse = np.mean(te_rmse, axis=1)
+        se = np.std(te_rmse, axis=1, ddof=1) / math.sqrt(nspl) if nspl > 1 else np.full(ndeg, np.nan)
+        train_r2 = np.mean(tr_r2, axis=1)
+        test_r2 = np.nanmean(te_r2, axis=1) if np.isfinite(te_r2).any() else np.full(ndeg, np.nan)
+
+    # full-data factor: AIC/BIC, conditioning, oscillation and band checks
+    full = Block.merge(partitions[0][0].values())
+    n = full.n
+    aic = np.full(ndeg, np.nan)
+    bic = np.full(ndeg, np.nan)
+    conds = np.full(ndeg, np.nan)
+    deg_notes: dict[int, list[str]] = {d: [] for d in degs}
+    disp = display_block if display_block is not None else full
+    disp_coef: dict[int, np.ndarray] = {}
+    ylo, yhi = y_range
+    yspan = (yhi - ylo) if yhi > ylo else 1.0
+    dlo, dhi = display_domain or domain
+    grid_t = _basis.to_window(np.linspace(dlo, dhi, 801), offset, scale)
+    grid_a = _basis.chebyshev_vander(grid_t, ncols)
+    disp_ok = np.abs(np.diag(disp.r))[:ncols]
+    disp_inv = _triangular_inverse(disp.r[:ncols, :ncols]) if disp_ok.min() > 0 else None
+    for i, d in enumerate(degs):
+        p = d + 1
+        rf = full.r[:p, :p]
+        conds[i] = condition_of(rf)
+        rss = float(np.sum(full.r[p:, ncols] ** 2))
+        if rss > 0 and n > 0:
+            aic[i] = n * math.log(rss / full.wsum) + 2 * p
+            bic[i] = n * math.log(rss / full.wsum) + p * math.log(n)
+        if d in failed or disp_inv is None:
+            continue
+        ri = disp_inv[:p, :p]
+        c = ri @ disp.r[:p, ncols]
+        disp_coef[d] = c
+        if conds[i] > CONDITION_LIMIT:
+            deg_notes[d].append(
+                f"degree {d}: the fit is ill-conditioned (condition number {conds[i]:.2g} even after mapping x to "
+                "[-1, 1]); its coefficients are poorly determined."
+            )
+        curve = _basis.chebyshev_values(grid_t, c)
+        over = max(float(curve.max()) - yhi, ylo - float(curve.min()), 0.0)
+        if over > OSCILLATION_FACTOR * yspan:
+            where = float(np.linspace(dlo, dhi, 801)[int(np.argmax(np.maximum(curve - yhi, ylo - curve)))])
+            deg_notes[d].append(
+                f"degree {d}: between data points the curve swings {over / yspan:.1f}× the data's y range beyond it "
+                f"(near x = {where:.4g}), a sign of oscillation."
+            )
+        dof = disp.n - p
+        if dof > 0:
+            u = ri.T @ grid_a[:, :p].T
+            inflation = float(np.sqrt(np.max(np.sum(u * u, axis=0))))
+            if inflation > BAND_INFLATION_LIMIT:
+                deg_notes[d].append(
+                    f"degree {d}: the uncertainty of the curve explodes between data points (its standard error "
+                    f"reaches {inflation:.1f}× the residual scatter)."
+                )
+        if n_train_min is not None and d >= n_train_min - 1:
+            deg_notes[d].append(
+                f"degree {d}: the curve has as many coefficients as the smallest training set has rows "
+                f"({n_train_min}), so it interpolates the points; training error means nothing here."
+            )
+
+    # recommendation
+    finite = np.isfinite(test_rmse)
+    if not finite.any():
+        raise FitError("No degree could be validated; check the data for duplicated x values or use fewer folds.")
+    imin = int(np.nanargmin(np.where(finite, test_rmse, np.inf)))
+    dmin = degs[imin]
+    has_se = nspl > 1 and np.isfinite(se[imin])
+    if has_se and not single_split_rule:
+        limit = test_rmse[imin] + se[imin]
+        irec = int(np.nonzero(finite & (test_rmse <= limit))[0][0])
+        rule = "one-standard-error"
+        why = (
+            f"degree {degs[irec]} is the smallest degree whose mean test RMSE ({test_rmse[irec]:.4g}) is within one "
+            f"standard error ({se[imin]:.2g}) of the minimum ({test_rmse[imin]:.4g} at degree {dmin}), "
+            f"by {scheme}"
+        )
+        if irec == imin:
+            why = (
+                f"degree {dmin} has the lowest mean test RMSE ({test_rmse[imin]:.4g}, standard error {se[imin]:.2g}) "
+                f"and no smaller degree comes within one standard error of it, by {scheme}"
+            )
+    else:
+        irec = imin
+        rule = "minimum-test-error"
+        why = (
+            f"degree {dmin} has the lowest test RMSE ({test_rmse[imin]:.4g}) on a single {scheme}; "
+            "a single split has no standard error, so this choice is noisy. Prefer k-fold cross-validation"
+        )
+    rec = degs[irec]
+
+    # overfitting: test error above its minimum by more than its SE while training error keeps falling
+    overfit = np.zeros(ndeg, dtype=bool)
+    margin = se[imin] if has_se else NO_SE_RISE * test_rmse[imin]
+    for i in range(imin + 1, ndeg):
+        if finite[i] and test_rmse[i] > test_rmse[imin] + margin and train_rmse[i] < train_rmse[imin]:
+            overfit[i] = True
+            deg_notes[degs[i]].insert(
+                0,
+                f"degree {degs[i]}: test error is {test_rmse[i] / test_rmse[imin]:.1f}× its minimum "
+                f"(degree {dmin}) while training error keeps falling — the curve is chasing noise.",
+            )
+    over_from = degs[int(np.argmax(overfit))] if overfit.any() else None
+    for d, msg in failed.items():
+        deg_notes[d].insert(0, f"degree {d}: could not be validated: {msg}.")
+    finite_aic = np.isfinite(aic)
+    aic_deg = degs[int(np.nanargmin(np.where(finite_aic, aic, np.inf)))] if finite_aic.any() else rec
+    bic_deg = degs[int(np.nanargmin(np.where(finite_aic, bic, np.inf)))] if finite_aic.any() else rec
+    return DegreeSweep(
+        degrees=np.asarray(degs, dtype=np.int64),
+        train_rmse=train_rmse,
+        test_rmse=test_rmse,
+        test_rmse_se=se,
+        train_rmse_folds=tr_rmse,
+        test_rmse_folds=te_rmse,
+        train_r2=train_r2,
+        test_r2=test_r2,
+        aic=aic,
+        bic=bic,
+        condition_numbers=conds,
+        overfit=overfit,
+        recommended_degree=rec,
+        recommendation_rule=rule,
+        recommendation=why[0].upper() + why[1:] + ".",
+        min_test_degree=dmin,
+        aic_degree=aic_deg,
+        bic_degree=bic_deg,
+        overfitting_from=over_from,
+        scheme=scheme,
+        n_splits=nspl,
+        rows_used=n,
+        n_train_min=int(n_train_min or 0),
+        warnings=tuple(notes),
+        degree_warnings={d: tuple(v) for d, v in deg_notes.items() if v},
+        failed_degrees=failed,
+        test_mask=test_mask,
+        domain=domain,
+        offset=offset,
+        scale=scale,
+        display_coefficients=disp_coef,
+        display_r=disp.r,
+        display_n=disp.n,
+        display_domain=(dlo, dhi),
+    )
+
+
+def _triangular_inverse(r: np.ndarray) -> np.ndarray:
+    """Inverse of an upper-triangular matrix (inf/nan where singular, checked by callers)."""
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        return solve_triangular(r, np.eye(r.shape[0]), check_finite=False)
+
+
+def _tss(b: Block) -> float:
+    """Weighted total sum of squares about the mean, from the factor (no cancellation)."""
+    if b.n == 0 or b.wsum <= 0:
+        return float("nan")
+    m = b.wysum / b.wsum
+    # T_0 = 1 is the first column, so [A | y] @ (-m e_0 + e_last) = y - m
+    v = b.r[:, -1] - m * b.r[:, 0]
+    return float(v @ v)
