@@ -54,10 +54,11 @@ def chebyshev_rows(t: np.ndarray, ncols: int, out: np.ndarray | None = None) -> 
         out[0] = 1
     if ncols > 1:
         out[1] = t
-    for k in range(2, ncols):
-        np.multiply(t, out[k - 1], out=out[k])
-        out[k] *= 2
-        out[k] -= out[k - 2]
+    if ncols > 2:
+        two_t = 2 * t  # exact: 2 (t T) and (2 t) T round identically
+        for k in range(2, ncols):
+            np.multiply(two_t, out[k - 1], out=out[k])
+            out[k] -= out[k - 2]
     return out
 
 
@@ -85,6 +86,29 @@ def chebyshev_moments(t: np.ndarray, count: int, weights: np.ndarray | None = No
     return out
 
 
+def chebyshev_moments_from_rows(rows: np.ndarray, count: int, weights: np.ndarray | None = None) -> np.ndarray:
+    """Moments S_k = sum_i w_i T_k(t_i), k < count <= 2m - 1, from stored rows T_0 .. T_{m-1}.
+
+    Uses T_{m-1+j} = 2 T_{m-1} T_j - T_{m-1-j} (from T_a T_b = (T_{a+b} + T_{|a-b|}) / 2),
+    so the higher moments cost one extra pass (a product with w T_{m-1})
+    instead of ``count - m`` recurrence passes. ``rows`` is (m, n).
+    """
+    m = rows.shape[0]
+    if count > 2 * m - 1:
+        raise ValueError("count must be at most 2 * rows - 1")
+    out = np.zeros(count, dtype=rows.dtype)
+    k0 = min(m, count)
+    if k0 == 0:
+        return out
+    out[:k0] = np.einsum("jn->j", rows[:k0]) if weights is None else np.einsum("jn,n->j", rows[:k0], weights)
+    if count > m:
+        last = rows[m - 1] if weights is None else rows[m - 1] * weights
+        extra = np.einsum("jn,n->j", rows[1 : count - m + 1], last)
+        for j in range(1, count - m + 1):
+            out[m - 1 + j] = 2 * extra[j - 1] - out[m - 1 - j]
+    return out
+
+
 def chebyshev_values(t: np.ndarray, coef: np.ndarray) -> np.ndarray:
     """Evaluate sum_k coef[k] T_k(t) by Clenshaw's recurrence (stable)."""
     t = np.asarray(t)
@@ -104,6 +128,8 @@ _CTX = decimal.Context(prec=80)
 
 def as_decimal(value) -> decimal.Decimal:
     """Value of a float64 or longdouble scalar as an 80-digit Decimal (exact for doubles)."""
+    if isinstance(value, decimal.Decimal):
+        return value
     if isinstance(value, np.longdouble):
         num, den = value.as_integer_ratio()
         return _CTX.divide(decimal.Decimal(int(num)), decimal.Decimal(int(den)))
@@ -165,20 +191,34 @@ def _dot(ctx, a, b) -> decimal.Decimal:
     return total
 
 
+def _nonzero(row) -> list[int]:
+    return [j for j, v in enumerate(row) if v != 0]
+
+
 def convert_vector(conv, vec) -> np.ndarray:
     """Power coefficients C @ vec, rounded once to float64."""
     dv = [as_decimal(v) for v in vec]
-    return np.array([float(_dot(_CTX, row, dv)) for row in conv], dtype=np.float64)
+    out = []
+    for row in conv:
+        nz = _nonzero(row)
+        out.append(float(_dot(_CTX, [row[j] for j in nz], [dv[j] for j in nz])))
+    return np.array(out, dtype=np.float64)
 
 
 def convert_covariance(conv, sym: np.ndarray) -> np.ndarray:
-    """C @ S @ C.T for a symmetric S, accumulated in 80-digit decimals, rounded once."""
+    """C @ S @ C.T for a symmetric S, accumulated in 80-digit decimals, rounded once.
+
+    C is triangular (a power x**k only takes basis terms of degree >= k), so
+    only its nonzero entries are multiplied.
+    """
     n = sym.shape[0]
     ds = [[as_decimal(sym[i, j]) for j in range(n)] for i in range(n)]
-    cols = [[ds[k][j] for k in range(n)] for j in range(n)]
-    cs = [[_dot(_CTX, row, col) for col in cols] for row in conv]
+    nzs = [_nonzero(row) for row in conv]
+    # cs[i][j] = sum_k C[i][k] S[k][j]
+    cs = [[_dot(_CTX, [row[k] for k in nz], [ds[k][j] for k in nz]) for j in range(n)] for row, nz in zip(conv, nzs)]
     out = np.empty((len(conv), len(conv)))
     for i in range(len(conv)):
         for j in range(i, len(conv)):
-            out[i, j] = out[j, i] = float(_dot(_CTX, cs[i], conv[j]))
+            nz = nzs[j]
+            out[i, j] = out[j, i] = float(_dot(_CTX, [cs[i][k] for k in nz], [conv[j][k] for k in nz]))
     return out

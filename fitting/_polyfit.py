@@ -32,6 +32,7 @@ Notes
 
 from __future__ import annotations
 
+import decimal
 import math
 import warnings as _warnings
 from dataclasses import dataclass, field
@@ -133,6 +134,92 @@ def condition_of(r: np.ndarray) -> float:
         return 1.0
     sv = np.linalg.svd(r, compute_uv=False)
     return float(sv[0] / sv[-1]) if sv[-1] > 0 else float("inf")
+
+
+_EPS_LD = float(np.finfo(LD).eps)
+# Above this condition number of the mapped design, the factor comes from a
+# double-precision Householder QR instead of a Cholesky factor of the
+# extended-precision Gram matrix (which squares the condition number).
+FAST_CONDITION_LIMIT = 1e6
+# Fits with at most this many (rows x coefficients) get a last refinement step
+# whose residual and gradient are computed in 50-digit decimals.
+POLISH_LIMIT = 40_000
+_POLISH_CTX = decimal.Context(prec=50)
+
+
+def _times(a, b):
+    if a is None:
+        return b
+    if b is None:
+        return a
+    return a * b
+
+
+def _cholesky_ld(g: np.ndarray) -> np.ndarray | None:
+    """Upper-triangular R with R^T R = g in longdouble, or None if g is not safely positive definite."""
+    p = g.shape[0]
+    r = np.zeros((p, p), dtype=LD)
+    for j in range(p):
+        s = g[j, j] - r[:j, j] @ r[:j, j]
+        if not s > 64 * LD(_EPS_LD) * g[j, j]:
+            return None
+        r[j, j] = np.sqrt(s)
+        if j + 1 < p:
+            r[j, j + 1 :] = (g[j, j + 1 :] - r[:j, j] @ r[:j, j + 1 :]) / r[j, j]
+    return r
+
+
+def _polish_decimal(x, y, w, offset, scale, through_origin, c_ld, factor, gram):
+    """One refinement step with the residual and gradient in 50-digit decimals.
+
+    Longdouble residuals carry rounding of about 1e-19 times |y|. When the
+    residuals are large (heavy noise) and the power-basis coefficients come out
+    of strong cancellation (x far from 0 relative to its range), that rounding
+    alone limits the coefficients to some 11-12 digits. This step removes it on
+    small data sets, where decimals are cheap. Returns (coefficients as
+    Decimals, RSS as Decimal), or (None, None) if it is not applicable.
+    """
+    D = decimal.Decimal
+    ctx = _POLISH_CTX
+    p = c_ld.size
+    with decimal.localcontext(ctx):
+        off = D(float(offset))
+        sc = D(float(scale))
+        c = [_basis.as_decimal(v) for v in c_ld]
+        grad = [D(0)] * p
+        rss = D(0)
+        wv = [D(1)] * x.size if w is None else [D(float(v)) for v in w]
+        for xi, yi, wi in zip(x.tolist(), y.tolist(), wv):
+            xd = D(xi)
+            t = (xd - off) / sc
+            tk = [D(1), t]
+            two_t = 2 * t
+            for _ in range(2, p):
+                tk.append(two_t * tk[-1] - tk[-2])
+            tk = tk[:p]
+            v = xd / sc if through_origin else None
+            f = D(0)
+            for ck, tv in zip(c, tk):
+                f += ck * tv
+            if v is not None:
+                f *= v
+            r = D(yi) - f
+            wr = wi * r
+            rss += wr * r
+            if v is not None:
+                wr *= v
+            for k in range(p):
+                grad[k] += tk[k] * wr
+        g_ld = np.array([LD(str(gv)) for gv in grad], dtype=LD)
+        dc = _solve_rtr(factor, g_ld)
+        dcd = [_basis.as_decimal(v) for v in dc]
+        coef = [ck + dk for ck, dk in zip(c, dcd)]
+        gd = sum((a * b for a, b in zip(dcd, grad)), D(0))
+        quad = _basis.as_decimal((dc @ (gram @ dc)))
+        rss_new = rss - 2 * gd + quad
+    if rss_new < 0:
+        rss_new = D(0)
+    return coef, rss_new
 
 
 def _gram_from_moments(moments: np.ndarray, p: int) -> np.ndarray:
@@ -398,19 +485,39 @@ def fit_polynomial(
     else:
         offset, scale = _basis.domain_map(lo, hi)
 
-    # --- double-precision QR of [A | y] (the O(n d^2) part) -----------------
-    sw = None if w is None else np.sqrt(w)
-    t = _basis.to_window(x, offset, scale)
-    rows = np.empty((ncols + 1, n))
-    _basis.chebyshev_rows(t, ncols, out=rows[:ncols])
-    if through_origin:
-        rows[:ncols] *= x / scale
-    rows[ncols] = y
-    if sw is not None:
-        rows *= sw
-    r_aug = qr_r(rows.T)
-    r = r_aug[:ncols, :ncols]
-    cond = condition_of(r)
+    # --- basis rows and normal-equation sums in extended precision (O(n d)) --
+    # Model: y ~ v(x) * sum_j c_j T_j(t), weight w; v = x / scale through the origin, else 1.
+    x_ld = x.astype(LD)
+    t_ld = (x_ld - LD(offset)) / LD(scale)
+    rows_ld = _basis.chebyshev_rows(t_ld, ncols)  # (ncols, n), unscaled T_j(t_i)
+    y_ld = y.astype(LD)
+    w_ld = None if w is None else w.astype(LD)
+    v_ld = x_ld / LD(scale) if through_origin else None
+    u_ld = _times(w_ld, v_ld)  # gradient weight w * v
+    m_ld = _times(u_ld, v_ld)  # moment weight w * v**2
+    gram = _gram_from_moments(_basis.chebyshev_moments_from_rows(rows_ld, 2 * ncols - 1, m_ld), ncols)
+    r_ld = _cholesky_ld(gram)
+    cond = condition_of(r_ld.astype(np.float64)) if r_ld is not None else float("inf")
+    if r_ld is not None and cond <= FAST_CONDITION_LIMIT:
+        factor = r_ld
+        coef = _solve_rtr(factor, np.einsum("jn,n->j", rows_ld, y_ld if u_ld is None else u_ld * y_ld))
+        contraction = cond * cond * _EPS_LD * 4 * ncols
+    else:
+        # Ill-conditioned design: Householder QR of the weighted [A | y] in double precision
+        # (O(n d^2)) gives a factor that does not square the condition number.
+        sw = None if w is None else np.sqrt(w)
+        rows = rows_ld.astype(np.float64)
+        if through_origin:
+            rows *= x / scale
+        rows = np.vstack([rows, y[None, :]])
+        if sw is not None:
+            rows *= sw
+        r_aug = qr_r(rows.T)
+        factor = r_aug[:ncols, :ncols]
+        cond = condition_of(factor)
+        if np.isfinite(cond) and cond <= 1.0 / (max(n, ncols) * np.finfo(np.float64).eps):
+            coef = solve_triangular(factor, r_aug[:ncols, ncols]).astype(LD)
+        contraction = cond * cond * np.finfo(np.float64).eps * 4 * ncols
     if not np.isfinite(cond) or cond > 1.0 / (max(n, ncols) * np.finfo(np.float64).eps):
         msg = (
             f"The design at degree {degree} is numerically rank deficient (condition number {cond:.3g}); "
@@ -418,31 +525,28 @@ def fit_polynomial(
         )
         _warnings.warn(msg, RankWarning, stacklevel=2)
         raise FitError(msg)
-    coef = solve_triangular(r, r_aug[:ncols, ncols])
 
-    # --- extended-precision refinement (O(n d) in longdouble) ---------------
-    x_ld = x.astype(LD)
-    t_ld = (x_ld - LD(offset)) / LD(scale)
-    a_ld = _basis.chebyshev_rows(t_ld, ncols)
-    z2_ld = None
-    if through_origin:
-        z_ld = x_ld / LD(scale)
-        a_ld *= z_ld
-        z2_ld = z_ld * z_ld
-    y_ld = y.astype(LD)
-    w_ld = None if w is None else w.astype(LD)
-    if w is not None:
-        sw_ld = np.sqrt(w_ld)
-        a_ld *= sw_ld
-        y_ld = y_ld * sw_ld
-    c_ld = coef.astype(LD)
+    # --- iterative refinement with residuals in extended precision ----------
+    # c <- c + (R^T R)^-1 A^T W (y - A c); each step is two O(n d) passes. The
+    # loop stops as soon as the predicted error of the next step (contraction
+    # times this step) is below rounding, so a well-conditioned fit needs one step.
+    c_ld = np.asarray(coef, dtype=LD)
     converged = False
+    rss_ld = LD(0)
+    grad = np.zeros(ncols, dtype=LD)
     for _ in range(8):
-        res = y_ld - c_ld @ a_ld
-        dc = _solve_rtr(r, a_ld @ res)
+        fitted = np.einsum("j,jn->n", c_ld, rows_ld)
+        res = y_ld - (fitted if v_ld is None else v_ld * fitted)
+        wres = res if w_ld is None else w_ld * res
+        grad = np.einsum("jn,n->j", rows_ld, wres if v_ld is None else v_ld * wres)
+        dc = _solve_rtr(factor, grad)
+        rss_at_c = res @ wres
         c_ld = c_ld + dc
+        # RSS at the updated coefficients without another pass over the data
+        rss_ld = rss_at_c - 2 * (dc @ grad) + dc @ (gram @ dc)
         size = np.max(np.abs(c_ld))
-        if size == 0 or np.max(np.abs(dc)) <= 4 * np.finfo(LD).eps * size:
+        step = np.max(np.abs(dc))
+        if size == 0 or step <= 4 * _EPS_LD * size or (contraction < 0.5 and contraction * step <= 4 * _EPS_LD * size):
             converged = True
             break
     if not converged:
@@ -450,17 +554,19 @@ def fit_polynomial(
             f"The extended-precision refinement did not settle at degree {degree} "
             f"(condition number {cond:.3g}); the last digits of the coefficients may be inexact."
         )
-    res = y_ld - c_ld @ a_ld
-    rss_ld = res @ res
-    del a_ld
+    rss_ld = max(rss_ld, LD(0))
+    coef_exact = None
+    if converged and n * ncols <= POLISH_LIMIT:
+        coef_exact, rss_dec = _polish_decimal(x, y, w, offset, scale, through_origin, c_ld, factor, gram)
+        if rss_dec is not None:
+            rss_ld = LD(rss_dec)
+    del rows_ld
 
-    # --- Gram matrix from moments, and its inverse by refinement ------------
-    mw = w_ld if z2_ld is None else (z2_ld if w_ld is None else z2_ld * w_ld)
-    gram = _gram_from_moments(_basis.chebyshev_moments(t_ld, 2 * ncols - 1, mw), ncols)
+    # --- inverse of the Gram matrix (from moments), refined -----------------
     eye = np.eye(ncols, dtype=LD)
-    inv = _solve_rtr(r, eye)
+    inv = _solve_rtr(factor, eye)
     for _ in range(4):
-        corr = _solve_rtr(r, eye - gram @ inv)
+        corr = _solve_rtr(factor, eye - gram @ inv)
         inv = inv + corr
         if np.max(np.abs(corr)) <= 4 * np.finfo(LD).eps * np.max(np.abs(inv)):
             break
@@ -471,7 +577,7 @@ def fit_polynomial(
     rss = float(rss_ld)
     sigma2_ld = rss_ld / LD(dof) if dof > 0 else LD("nan")
     residual_sd = float(np.sqrt(sigma2_ld)) if dof > 0 else float("nan")
-    yy = y.astype(LD)
+    yy = y_ld
     wsum = LD(n) if w_ld is None else np.sum(w_ld)
     dev = yy if through_origin else yy - (np.sum(yy if w_ld is None else w_ld * yy) / wsum)
     tss_ld = dev @ dev if w_ld is None else (w_ld * dev) @ dev
@@ -492,7 +598,7 @@ def fit_polynomial(
 
     # --- exact conversion to the power basis --------------------------------
     conv = _basis.power_conversion(ncols, offset, scale, through_origin)
-    coef_pow = _basis.convert_vector(conv, c_ld)
+    coef_pow = _basis.convert_vector(conv, c_ld if coef_exact is None else coef_exact)
     if dof > 0:
         cov_pow = _basis.convert_covariance(conv, inv * sigma2_ld)
     else:
