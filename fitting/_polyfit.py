@@ -143,7 +143,7 @@ _EPS_LD = float(np.finfo(LD).eps)
 FAST_CONDITION_LIMIT = 1e6
 # Fits with at most this many (rows x coefficients) get a last refinement step
 # whose residual and gradient are computed in 50-digit decimals.
-POLISH_LIMIT = 40_000
+POLISH_LIMIT = 10_000
 _POLISH_CTX = decimal.Context(prec=50)
 
 
@@ -177,7 +177,7 @@ def _polish_decimal(x, y, w, offset, scale, through_origin, c_ld, factor, gram):
     of strong cancellation (x far from 0 relative to its range), that rounding
     alone limits the coefficients to some 11-12 digits. This step removes it on
     small data sets, where decimals are cheap. Returns (coefficients as
-    Decimals, RSS as Decimal), or (None, None) if it is not applicable.
+    Decimals, RSS as Decimal, Gram matrix as nested lists of Decimals).
     """
     D = decimal.Decimal
     ctx = _POLISH_CTX
@@ -187,6 +187,7 @@ def _polish_decimal(x, y, w, offset, scale, through_origin, c_ld, factor, gram):
         sc = D(float(scale))
         c = [_basis.as_decimal(v) for v in c_ld]
         grad = [D(0)] * p
+        mom = [D(0)] * (2 * p - 1)
         rss = D(0)
         wv = [D(1)] * x.size if w is None else [D(float(v)) for v in w]
         for xi, yi, wi in zip(x.tolist(), y.tolist(), wv):
@@ -194,10 +195,12 @@ def _polish_decimal(x, y, w, offset, scale, through_origin, c_ld, factor, gram):
             t = (xd - off) / sc
             tk = [D(1), t]
             two_t = 2 * t
-            for _ in range(2, p):
+            for _ in range(2, 2 * p - 1):
                 tk.append(two_t * tk[-1] - tk[-2])
-            tk = tk[:p]
             v = xd / sc if through_origin else None
+            mw = wi if v is None else wi * v * v
+            for k in range(2 * p - 1):
+                mom[k] += mw * tk[k]
             f = D(0)
             for ck, tv in zip(c, tk):
                 f += ck * tv
@@ -217,9 +220,33 @@ def _polish_decimal(x, y, w, offset, scale, through_origin, c_ld, factor, gram):
         gd = sum((a * b for a, b in zip(dcd, grad)), D(0))
         quad = _basis.as_decimal((dc @ (gram @ dc)))
         rss_new = rss - 2 * gd + quad
+        gram_dec = [[(mom[i + j] + mom[abs(i - j)]) / 2 for j in range(p)] for i in range(p)]
     if rss_new < 0:
         rss_new = D(0)
-    return coef, rss_new
+    return coef, rss_new, gram_dec
+
+
+def _refine_inverse_decimal(gram_dec, inv_ld: np.ndarray, factor: np.ndarray, steps: int = 2):
+    """Refine an inverse of the decimal Gram matrix: X <- X + (R^T R)^-1 (I - G X), residual in decimals."""
+    p = inv_ld.shape[0]
+    with decimal.localcontext(_POLISH_CTX):
+        x = [[_basis.as_decimal(inv_ld[i, j]) for j in range(p)] for i in range(p)]
+        for _ in range(steps):
+            e = np.empty((p, p), dtype=LD)
+            for i in range(p):
+                gi = gram_dec[i]
+                for j in range(p):
+                    acc = decimal.Decimal(int(i == j))
+                    for k in range(p):
+                        acc -= gi[k] * x[k][j]
+                    e[i, j] = LD(str(acc))
+            corr = _solve_rtr(factor, e)
+            x = [[x[i][j] + _basis.as_decimal(corr[i, j]) for j in range(p)] for i in range(p)]
+        out = np.empty((p, p), dtype=object)
+        for i in range(p):
+            for j in range(p):
+                out[i, j] = (x[i][j] + x[j][i]) / 2
+    return out
 
 
 def _gram_from_moments(moments: np.ndarray, p: int) -> np.ndarray:
@@ -555,11 +582,10 @@ def fit_polynomial(
             f"(condition number {cond:.3g}); the last digits of the coefficients may be inexact."
         )
     rss_ld = max(rss_ld, LD(0))
-    coef_exact = None
+    coef_exact = gram_dec = rss_dec = None
     if converged and n * ncols <= POLISH_LIMIT:
-        coef_exact, rss_dec = _polish_decimal(x, y, w, offset, scale, through_origin, c_ld, factor, gram)
-        if rss_dec is not None:
-            rss_ld = LD(rss_dec)
+        coef_exact, rss_dec, gram_dec = _polish_decimal(x, y, w, offset, scale, through_origin, c_ld, factor, gram)
+        rss_ld = LD(str(rss_dec))
     del rows_ld
 
     # --- inverse of the Gram matrix (from moments), refined -----------------
@@ -571,6 +597,7 @@ def fit_polynomial(
         if np.max(np.abs(corr)) <= 4 * np.finfo(LD).eps * np.max(np.abs(inv)):
             break
     inv = (inv + inv.T) / 2
+    inv_dec = _refine_inverse_decimal(gram_dec, inv, factor) if gram_dec is not None else None
 
     # --- statistics ---------------------------------------------------------
     dof = n - ncols
@@ -600,7 +627,12 @@ def fit_polynomial(
     conv = _basis.power_conversion(ncols, offset, scale, through_origin)
     coef_pow = _basis.convert_vector(conv, c_ld if coef_exact is None else coef_exact)
     if dof > 0:
-        cov_pow = _basis.convert_covariance(conv, inv * sigma2_ld)
+        if inv_dec is not None:
+            with decimal.localcontext(_POLISH_CTX):
+                s2 = rss_dec / dof
+                cov_pow = _basis.convert_covariance(conv, inv_dec * s2)
+        else:
+            cov_pow = _basis.convert_covariance(conv, inv * sigma2_ld)
     else:
         cov_pow = np.full((degree + 1, degree + 1), np.nan)
     se_pow = np.sqrt(np.maximum(np.diag(cov_pow), 0.0))
