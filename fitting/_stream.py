@@ -77,6 +77,8 @@ _PARQUET_SUFFIXES = (".parquet", ".parq", ".pq")
 _DISTINCT_LIMIT = MAX_DEGREE + 1
 #: bytes per CSV block handed to the dask workers
 _DASK_CSV_BLOCK = 32 << 20
+#: how long to wait for a remote dask scheduler
+_CONNECT_TIMEOUT = "20s"
 
 Progress = Callable[[int, "int | None"], None]
 
@@ -255,7 +257,7 @@ def _csv_header(path: str) -> tuple[int, int]:
                     break
                 continue
             return skip, offset
-    raise IntakeError(f"{path} has no header line and no data; is it an empty or comment-only file?")
+    raise IntakeError(f"{path} has no header line and no data; load a file with a header row and data rows.")
 
 
 def _csv_source(path: str) -> _Source:
@@ -270,10 +272,24 @@ def _csv_source(path: str) -> _Source:
             parse_options=pcsv.ParseOptions(invalid_row_handler=_skip_invalid_row),
         )
         schema = reader.schema
+        try:
+            first = reader.read_next_batch()
+        except StopIteration:
+            first = None
         reader.close()
     except (pa.ArrowException, OSError, UnicodeDecodeError) as exc:
         raise IntakeError(f"{path} cannot be read as CSV ({_first_line(exc)}).") from None
-    numeric = [f.name for f in schema if pa.types.is_integer(f.type) or pa.types.is_floating(f.type)]
+    numeric = []
+    for f in schema:
+        if pa.types.is_integer(f.type) or pa.types.is_floating(f.type):
+            numeric.append(f.name)
+        elif pa.types.is_string(f.type) and first is not None:
+            # a number column with a few bad cells reads as text: call it numeric when most cells are numbers
+            col = first.column(f.name).drop_null()
+            if len(col):
+                parsed = np.isfinite(_as_float(col)).mean()
+                if parsed >= 0.5:
+                    numeric.append(f.name)
     with open(path, "rb") as fh:
         fh.seek(offset)
         header = fh.readline()
@@ -819,7 +835,7 @@ def _dask_client(scheduler):
         return scheduler, []
     if isinstance(scheduler, str):
         try:
-            client = distributed.Client(scheduler, set_as_default=False, timeout="20s")
+            client = distributed.Client(scheduler, set_as_default=False, timeout=_CONNECT_TIMEOUT)
         except (OSError, TimeoutError) as exc:
             raise FitError(f"Cannot reach the dask scheduler at {scheduler} ({_first_line(exc)}); check the address.") from None
         return client, [client]
