@@ -655,8 +655,8 @@ def _cmd_predict(args) -> int:
         header = [x_label, "prediction", f"confidence lower {pct}", f"confidence upper {pct}",
                   f"prediction lower {pct}", f"prediction upper {pct}", "outside fitted range"]
 
-        def cell(v):
-            return "" if isinstance(v, float) and not math.isfinite(v) else repr(v) if isinstance(v, float) else v
+        def cell(v):  # numbers stay numbers (csv writes repr); undefined ones become empty cells
+            return "" if isinstance(v, float) and not math.isfinite(v) else v
 
         body = [
             [cell(r["x"]), cell(r["prediction"]), cell(r["confidence_lower"]), cell(r["confidence_upper"]),
