@@ -1,0 +1,70 @@
+"""degreescope's dashboard (Dash). ``create_app`` builds one app; importing this package does nothing else.
+
+    create_app(data_path=None, *, upload_limit_bytes=128 MiB, cache_bytes=1 GiB) -> dash.Dash
+
+``dash_app.server`` is the Flask WSGI app that ``degreescope serve`` runs.
+
+Data flow: ``dcc.Upload`` -> ``service.FitService.load_upload`` -> ``store.DatasetStore``
+(server memory, keyed by an unguessable id) -> the page's ``dcc.Store`` holds only that
+id and the settings -> callbacks ask the service for cached views -> ``figures`` builds
+the charts, ``exports`` the downloads.
+"""
+
+from __future__ import annotations
+
+__all__ = ["create_app"]
+
+DEFAULT_UPLOAD_LIMIT_BYTES = 128 * 1024 * 1024
+DEFAULT_CACHE_BYTES = 1024**3
+
+
+def upload_max_size(upload_limit_bytes: int) -> int:
+    """``dcc.Upload.max_size``: a bit above the server's limit, so the server's own message is what users see.
+
+    The component drops larger files silently; ``assets/degreescope.js`` warns about those in the browser.
+    """
+    return int(upload_limit_bytes) + max(int(upload_limit_bytes) // 8, 256 * 1024)
+
+
+def create_app(
+    data_path: str | None = None,
+    *,
+    upload_limit_bytes: int = DEFAULT_UPLOAD_LIMIT_BYTES,
+    cache_bytes: int = DEFAULT_CACHE_BYTES,
+):
+    """Build the dashboard; ``data_path`` (default: the invented sensor sample) is shown at start.
+
+    Raises ``fitting.DegreescopeError`` when ``data_path`` cannot be read.
+    """
+    from pathlib import Path
+
+    import dash
+
+    from . import callbacks, layout
+    from .service import SAMPLE_PATH, FitService
+    from .store import DatasetStore
+
+    if int(upload_limit_bytes) <= 0:
+        raise ValueError("upload_limit_bytes must be positive")
+    store = DatasetStore(max_bytes=cache_bytes)
+    service = FitService(store, upload_limit_bytes=upload_limit_bytes, sample_path=data_path or SAMPLE_PATH)
+    service.sample_id()  # read the start-up data now, so a bad path fails at start
+
+    app = dash.Dash(
+        __name__,
+        title="degreescope",
+        assets_folder=str(Path(__file__).resolve().parent / "assets"),
+        suppress_callback_exceptions=False,
+        update_title=None,
+        serve_locally=True,
+    )
+    max_size = upload_max_size(upload_limit_bytes)
+
+    def serve_layout():
+        info = service.info(service.sample_id())
+        return layout.build_layout(info.to_store(), upload_limit_bytes=upload_limit_bytes, upload_max_size=max_size)
+
+    app.layout = serve_layout
+    callbacks.register(app, service)
+    app.degreescope_service = service  # for tests and benchmarks
+    return app

@@ -1,0 +1,83 @@
+"""Every component id of the dashboard, shared by the layout, the callbacks and the tests.
+
+The first block are stable DOM ids that acceptance tests look up; do not rename them.
+"""
+
+# -- stable ids (acceptance tests find these) ---------------------------------
+UPLOAD = "upload"
+X_COLUMN = "x-column"
+Y_COLUMN = "y-column"
+DEGREE = "degree"
+HOLDOUT = "holdout"
+FIT_CHART = "fit-chart"
+ERROR_CHART = "error-chart"
+OVERFIT_ALERT = "overfit-alert"
+RECOMMENDED_DEGREE = "recommended-degree"
+COEFFICIENTS = "coefficients"
+
+# -- data intake --------------------------------------------------------------
+URL = "url"
+DATASET = "dataset"  # dcc.Store: {"id", "name", "columns", ...}; no data
+UPLOAD_NOTICE = "upload-notice"
+UPLOAD_SIZE_WARNING = "upload-size-warning"  # written only by assets/degreescope.js
+INTAKE_REPORT = "intake-report"
+WEIGHTS_COLUMN = "weights-column"
+GROUP_COLUMN = "group-column"
+
+# -- validation split -----------------------------------------------------------
+SPLIT_MODE = "split-mode"
+FOLDS = "folds"
+SEED = "seed"
+NEW_SPLIT = "new-split"
+SPLIT_NOTE = "split-note"
+
+# -- degree and bands -----------------------------------------------------------
+BANDS = "bands"
+DEGREE_READOUT = "degree-readout"
+
+# -- verdict and numbers ----------------------------------------------------------
+FIT_NOTICE = "fit-notice"
+MEASURE_NOTE = "measure-note"
+RECOMMENDATION_TEXT = "recommendation-text"
+SWEEP_NOTES = "sweep-notes"
+STATS = "stats"
+EQUATION = "equation"
+EQUATION_COPY = "equation-copy"
+MODEL_NOTE = "model-note"
+RESIDUAL_CHART = "residual-chart"
+
+# -- predict ----------------------------------------------------------------------
+PREDICT_INPUT = "predict-input"
+PREDICT_TABLE = "predict-table"
+
+# -- exports ------------------------------------------------------------------------
+FIT_PNG = "fit-png"
+FIT_SVG = "fit-svg"
+ERROR_PNG = "error-png"
+ERROR_SVG = "error-svg"
+IMAGE_DONE = "image-done"
+REPORT_BUTTON = "report-button"
+MODEL_BUTTON = "model-button"
+CSV_BUTTON = "csv-button"
+DOWNLOAD = "download"
+EXPORT_NOTICE = "export-notice"
+
+# -- chart trace order (figures.py builds them in this order; Patch indexes them) -----
+FIT_TRACE_TRAIN = 0
+FIT_TRACE_TEST = 1
+FIT_TRACE_PRED_LO = 2
+FIT_TRACE_PRED_HI = 3
+FIT_TRACE_CONF_LO = 4
+FIT_TRACE_CONF_HI = 5
+FIT_TRACE_CURVE = 6
+ERR_TRACE_TRAIN = 0
+ERR_TRACE_TEST = 1
+ERR_TRACE_STEADY = 2
+ERR_TRACE_CURRENT = 3
+ERR_TRACE_RECOMMENDED = 4
+
+# -- stores -----------------------------------------------------------------------------
+SPLIT_KEY = "split-key"  # the settings the charts on screen were drawn for
+HOLDOUT_BOX = "holdout-box"
+FOLDS_BOX = "folds-box"
+UPLOAD_BOX = "upload-box"  # carries data-limit for assets/degreescope.js
