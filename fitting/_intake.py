@@ -654,6 +654,27 @@ def _split_line(line: str, d: str) -> list[str]:
         return line.split(d)
 
 
+def _sample_records(lines: list[str], keep: list[int], d: str) -> list[tuple[int, list[str]]]:
+    """Records of the kept sample lines, each with the index of its first line.
+
+    Quoted fields may run over several lines, as in the main parse.
+    """
+    if not any('"' in lines[i] for i in keep):
+        return [(i, lines[i].split(d)) for i in keep]
+    try:
+        reader = csv.reader(
+            (lines[i] for i in keep), delimiter=d, quotechar='"', doublequote=True,
+            skipinitialspace=True, strict=False,
+        )
+        out, prev = [], 0
+        for rec in reader:
+            out.append((keep[prev], rec))
+            prev = reader.line_num
+        return out
+    except csv.Error:
+        return [(i, lines[i].split(d)) for i in keep]
+
+
 def _cell_kind(cell: str) -> str:
     c = cell.strip()
     if c.lower() in _MISSING:
@@ -697,16 +718,14 @@ def _layout_from(lines: list[str], display: str) -> _Layout:
         comment = re.compile(_comment_re(d))
         blank = re.compile(_blank_re(d))
         rule = re.compile(_rule_re(d))
-        recs = []
+        keep = []
         for i, s in enumerate(stripped):
             if not s or blank.match(s) or rule.match(s):
                 continue
             if comment.match(s) and not _SHEET_ERROR_RE.match(s):
                 continue
-            cells = _split_line(lines[i], d)
-            if not any(c.strip() for c in cells):
-                continue
-            recs.append((i, cells))
+            keep.append(i)
+        recs = [(i, cells) for i, cells in _sample_records(lines, keep, d) if any(c.strip() for c in cells)]
         if not recs:
             continue
         counts = Counter(len(c) for _, c in recs)

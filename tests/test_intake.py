@@ -1,0 +1,511 @@
+"""Tests of fitting._intake: the corpus of awkward files, and the parsing rules one by one.
+
+The corpus files are invented (see tests/data/csv_corpus/make_corpus.py); their expected
+results in manifest.json were worked out by hand from the file contents. Where a check
+compares with pandas.read_csv, pandas is the outside reference, named at the check.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import importlib.util
+import io
+import json
+import math
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from fitting import _errors
+from fitting import _intake
+from fitting._errors import ColumnError, DegreescopeError, FileTooLargeError, FitError, IntakeError
+from fitting._intake import DEFAULT_MAX_BYTES, DropInfo, IntakeReport, Selection, Table, read_table
+
+CORPUS = Path(__file__).parent / "data" / "csv_corpus"
+MANIFEST = json.loads((CORPUS / "manifest.json").read_text(encoding="utf-8"))["files"]
+NOT_DATA = {"make_corpus.py", "manifest.json", "README.md", "__pycache__"}
+OK_ENTRIES = [e for e in MANIFEST if "error" not in e]
+ERR_ENTRIES = [e for e in MANIFEST if "error" in e]
+
+
+def _general(source, **kw) -> Table:
+    """Read with the fast path switched off (the general path only)."""
+    return _intake._read(source, max_bytes=kw.pop("max_bytes", DEFAULT_MAX_BYTES), name=kw.pop("name", None), fast=False)
+
+
+# --------------------------------------------------------------------------- the corpus
+
+
+def test_manifest_lists_every_corpus_file_once():
+    on_disk = sorted(p.name for p in CORPUS.iterdir() if p.name not in NOT_DATA)
+    listed = [e["file"] for e in MANIFEST]
+    assert sorted(listed) == on_disk
+    assert len(set(listed)) == len(listed)
+    assert len(on_disk) >= 30
+
+
+def test_generator_reproduces_the_committed_files():
+    spec = importlib.util.spec_from_file_location("make_corpus", CORPUS / "make_corpus.py")
+    mod = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(mod)
+    for name, data in mod.FILES.items():
+        assert (CORPUS / name).read_bytes() == data, name
+
+
+@pytest.mark.parametrize("entry", OK_ENTRIES, ids=[e["file"] for e in OK_ENTRIES])
+def test_corpus_file(entry):
+    path = CORPUS / entry["file"]
+    table = read_table(path)
+    rep = table.report
+    assert rep.source_name == entry["file"]
+    for key in ("encoding", "delimiter", "decimal", "thousands", "header_line", "rows_read"):
+        if key in entry:
+            assert getattr(rep, key) == entry[key], key
+    for key in ("columns", "numeric_columns"):
+        if key in entry:
+            assert getattr(rep, key) == entry[key], key
+    if "units" in entry:
+        assert {c: rep.units[c] for c in entry["units"]} == entry["units"]
+    for col, expected in entry.get("values", {}).items():
+        got = table.frame[col].to_numpy()[: len(expected)]
+        np.testing.assert_allclose(got, expected, rtol=1e-12, atol=0)
+    if "line_numbers" in entry:
+        assert table.line_numbers.tolist() == entry["line_numbers"]
+    for text in entry.get("note_contains", []):
+        assert any(text in n for n in rep.notes), (text, rep.notes)
+
+    if "select_error" in entry:
+        with pytest.raises(getattr(_errors, entry["select_error"])) as info:
+            table.select()
+        assert entry["message"] in str(info.value)
+        return
+    assert table.default_xy() == (entry["x"], entry["y"])
+    sel = table.select()
+    assert (sel.x_name, sel.y_name) == (entry["x"], entry["y"])
+    assert sel.rows_used == entry["rows_used"]
+    assert sel.x.size == sel.y.size == sel.rows_used
+    assert np.isfinite(sel.x).all() and np.isfinite(sel.y).all()
+    # Exact accounting: every data row is either used or counted under one reason.
+    assert sel.rows_used + sel.rows_dropped == rep.rows_read
+    assert sum(d.count for d in sel.dropped.values()) == sel.rows_dropped
+    assert len(table.frame) == rep.rows_read - sum(d.count for d in rep.dropped.values())
+    if "dropped" in entry:
+        assert {k: v.count for k, v in sel.dropped.items()} == entry["dropped"]
+    for reason, first in entry.get("dropped_lines", {}).items():
+        assert sel.dropped[reason].first_lines == first
+    if "x" in entry and entry["x"] in rep.units:
+        assert sel.x_unit == rep.units[entry["x"]]
+    json.dumps(rep.to_dict(), allow_nan=False)
+    json.dumps(sel.to_dict(), allow_nan=False)
+    assert all(isinstance(s, str) and s.endswith(".") for s in rep.summary_lines())
+
+
+@pytest.mark.parametrize("entry", ERR_ENTRIES, ids=[e["file"] for e in ERR_ENTRIES])
+def test_corpus_error_file(entry):
+    cls = getattr(_errors, entry["error"])
+    with pytest.raises(cls) as info:
+        read_table(CORPUS / entry["file"])
+    msg = str(info.value)
+    assert entry["message"] in msg
+    assert entry["file"] in msg  # the message names the file
+    # One sentence: no sentence break inside, ends with a full stop.
+    assert msg.endswith(".") and ". " not in msg.rstrip(".")
+
+
+@pytest.mark.parametrize("entry", OK_ENTRIES, ids=[e["file"] for e in OK_ENTRIES])
+def test_fast_and_general_paths_agree(entry):
+    path = CORPUS / entry["file"]
+    fast, general = read_table(path), _general(path)
+    pd.testing.assert_frame_equal(fast.frame, general.frame, check_exact=True)
+    assert fast.report == general.report
+    assert fast.line_numbers.tolist() == general.line_numbers.tolist()
+
+
+COMPARE = [e for e in OK_ENTRIES if "compare_pandas" in e]
+
+
+@pytest.mark.parametrize("entry", COMPARE, ids=[e["file"] for e in COMPARE])
+def test_clean_files_match_pandas_read_csv(entry):
+    # Outside reference: pandas.read_csv with its default C engine. (In pandas 3.1 its
+    # default number parser agrees with Python's correctly rounded float(), seen on
+    # 200,000 random values while writing this test.)
+    path = CORPUS / entry["file"]
+    ref = pd.read_csv(path, **entry["compare_pandas"])
+    ref = ref.astype(np.float64)
+    ours = read_table(path).frame
+    assert list(ours.columns) == list(ref.columns)
+    pd.testing.assert_frame_equal(ours, ref, check_exact=True, check_column_type=False)
+
+
+def test_reading_never_changes_the_file():
+    for entry in MANIFEST:
+        path = CORPUS / entry["file"]
+        before = hashlib.sha256(path.read_bytes()).hexdigest()
+        mtime = path.stat().st_mtime_ns
+        try:
+            read_table(path)
+        except DegreescopeError:
+            pass
+        assert hashlib.sha256(path.read_bytes()).hexdigest() == before
+        assert path.stat().st_mtime_ns == mtime
+
+
+# --------------------------------------------------------------------------- numbers
+
+
+def _col(text: str, col: str = "y", **kw) -> np.ndarray:
+    return read_table(text.encode("utf-8"), **kw).frame[col].to_numpy()
+
+
+def test_unicode_minus_and_leading_plus():
+    v = _col("x,y\n1,\u22121.5\n2,+2.25\n3,\u22123e\u22122\n4,-4\n")
+    assert v.tolist() == [-1.5, 2.25, -0.03, -4.0]
+
+
+def test_thousands_with_decimal_point_need_groups_of_three():
+    t = read_table(b'x,y\n1,"1,250.0"\n2,"12,500"\n3,"1,25"\n4,"1,2345"\n5,"1,250,000.5"\n')
+    assert t.report.thousands == ","
+    v = t.frame["y"].to_numpy()
+    assert v[0] == 1250.0 and v[1] == 12500.0 and v[4] == 1250000.5
+    assert np.isnan(v[2]) and np.isnan(v[3])  # "1,25" and "1,2345" are not grouped digits
+    assert any("2 values are not a number" in n for n in t.report.notes)
+
+
+def test_thousands_dot_with_decimal_comma():
+    t = read_table("a;b\n1;1.250,5\n2;12.500\n3;3,5\n4;1.2\n".encode())
+    assert (t.report.decimal, t.report.thousands) == (",", ".")
+    v = t.frame["b"].to_numpy()
+    assert v[:3].tolist() == [1250.5, 12500.0, 3.5]
+    assert np.isnan(v[3])  # a '.' decimal inside a decimal-comma file is not a number
+
+
+def test_space_and_no_break_space_grouping():
+    t = read_table("a\tb\n1\t1 250\n2\t2\u00a0500.5\n3\t3\u202f000\n4\t7.5\n".encode())
+    assert t.report.thousands == " "
+    assert t.frame["b"].tolist() == [1250.0, 2500.5, 3000.0, 7.5]
+
+
+def test_decimal_comma_with_exponent():
+    t = read_table("a;b\n1;4,5e2\n2;1,2E-3\n3;\u22127,5e+1\n4;0,5\n".encode())
+    assert t.report.decimal == ","
+    assert t.frame["b"].tolist() == [450.0, 0.0012, -75.0, 0.5]
+
+
+def test_ambiguous_comma_in_semicolon_file_is_a_decimal_comma():
+    t = read_table(b"a;b\n1;1,250\n2;2,500\n3;3,750\n")
+    assert t.report.decimal == ","
+    assert t.frame["b"].tolist() == [1.25, 2.5, 3.75]
+
+
+def test_missing_markers_are_missing_not_unparseable():
+    markers = ["", "NA", "N/A", "n/a", "-", "--", "#N/A", "NaN", "nan", "null", "NULL", "None", "nUlL", "MISSING", "n.a."]
+    body = "x,y\n" + "".join(f"{i},{m}\n" for i, m in enumerate(markers)) + "100,1\n101,2\n"
+    t = read_table(body.encode())
+    v = t.frame["y"].to_numpy()
+    assert np.isnan(v[: len(markers)]).all() and v[-2:].tolist() == [1.0, 2.0]
+    assert not any("not a number" in n for n in t.report.notes)
+    sel = t.select()
+    assert sel.rows_used == 2
+    assert sel.dropped["missing or non-numeric y"].count == len(markers)
+
+
+def test_infinities_are_read_and_dropped_with_their_own_reason():
+    t = read_table("x,y\n0,1\n1,inf\n2,-Infinity\n3,+\u221e\n4,2\ninf,3\n5,1e999\n".encode())
+    v = t.frame["y"].to_numpy()
+    assert v[1] == math.inf and v[2] == -math.inf and v[3] == math.inf and v[6] == math.inf
+    sel = t.select()
+    assert sel.rows_used == 2
+    assert sel.dropped["infinite y"] == DropInfo(4, [3, 4, 5, 8])
+    assert sel.dropped["infinite x"] == DropInfo(1, [7])
+
+
+def test_scientific_notation_variants():
+    assert _col("x,y\n1,1.2E-3\n2,4.5e+2\n3,.5e1\n4,5.E0\n5,7e2\n").tolist() == [0.0012, 450.0, 5.0, 5.0, 700.0]
+
+
+def test_values_match_python_float_for_many_decimal_strings():
+    # Outside reference: Python's float(), which rounds correctly (IEEE 754).
+    rng = np.random.default_rng(7)
+    vals = rng.normal(scale=1e3, size=500) * 10.0 ** rng.integers(-12, 12, size=500)
+    strs = [repr(float(v)) for v in vals]
+    body = "x,y\n" + "".join(f"{i},{s}\n" for i, s in enumerate(strs))
+    for reader in (read_table, _general):
+        got = reader(body.encode()).frame["y"].to_numpy()
+        assert got.tolist() == [float(s) for s in strs]
+
+
+# --------------------------------------------------------------------------- structure
+
+
+def test_duplicate_names_are_renamed_and_noted():
+    t = read_table(b"x,y,y,x,y (2)\n1,2,3,4,5\n2,3,4,5,6\n3,4,5,6,7\n")
+    assert t.report.columns == ["x", "y", "y (2)", "x (2)", "y (2) (2)"]
+    assert sum("appears more than once" in n for n in t.report.notes) == 3
+
+
+def test_units_parsing_rules():
+    unit = _intake._unit_of
+    assert unit("Temperatur (°C)") == "°C"
+    assert unit("v [mV]") == "mV"
+    assert unit("I / mA") == "mA"
+    assert unit("Flow (L/min)") == "L/min"
+    assert unit("Sample (2)") is None
+    assert unit("(s)") is None  # a bracket alone names nothing
+    assert unit("time_s") is None
+    assert unit("ratio a/b") is None
+    assert unit("x ()") is None
+
+
+def test_units_reach_the_selection():
+    t = read_table("Temperatur (°C);Widerstand [kΩ]\n20;1,1\n25;1,2\n30;1,3\n".encode())
+    sel = t.select()
+    assert (sel.x_unit, sel.y_unit) == ("°C", "kΩ")
+
+
+def test_header_found_below_metadata_with_the_same_field_count():
+    text = "Operator,A. Tester\nSamples,500\nRate,10\ntime,volts\n0,1.5\n1,2.5\n2,3.5\n3,4.5\n"
+    t = read_table(text.encode())
+    assert t.report.header_line == 4
+    assert t.report.columns == ["time", "volts"]
+    assert t.report.rows_read == 4
+    assert any("lines 1–3" in n for n in t.report.notes)
+
+
+def test_header_with_fewer_fields_is_metadata_not_a_header():
+    # "Date,2026-01-01" has 2 fields in a 3-field file: metadata, so no header.
+    t = read_table(b"Date,2026-01-01\n1,2,3\n2,3,4\n3,4,5\n")
+    assert t.report.header_line == 0
+    assert t.report.columns == ["column 1", "column 2", "column 3"]
+    assert t.line_numbers.tolist() == [2, 3, 4]
+
+
+def test_no_header_is_noted():
+    t = read_table(b"1,2\n2,4\n3,6\n")
+    assert t.report.header_line == 0
+    assert t.report.columns == ["column 1", "column 2"]
+    assert any("No header line" in n for n in t.report.notes)
+
+
+def test_comment_lines_inside_data_are_skipped_and_noted():
+    t = read_table(b"x,y\n1,1\n# pause\n2,2\n// note\n3,3\n")
+    assert t.report.rows_read == 3
+    assert t.line_numbers.tolist() == [2, 4, 6]
+    assert any("2 comment lines inside the data (lines 3, 5)" in n for n in t.report.notes)
+
+
+def test_spreadsheet_error_at_line_start_is_data_not_comment():
+    t = read_table(b"x,y\n#N/A,1\n1,2\n2,3\n3,4\n")
+    assert t.report.rows_read == 4
+    sel = t.select()
+    assert sel.dropped["missing or non-numeric x"] == DropInfo(1, [2])
+
+
+def test_dropped_lines_keep_first_five_in_file_order_and_full_count():
+    body = "x,y\n" + "".join(f"{i},{'NA' if i % 2 else i}\n" for i in range(20))
+    sel = read_table(body.encode()).select()
+    info = sel.dropped["missing or non-numeric y"]
+    assert info.count == 10
+    assert info.first_lines == [3, 5, 7, 9, 11]  # rows i=1,3,5,7,9 sit on lines i+2
+
+
+def test_selection_line_numbers_point_at_the_used_rows():
+    sel = read_table(b"x,y\n1,1\n2,NA\n\n3,3\n4,4\n").select()
+    assert sel.line_numbers.tolist() == [2, 5, 6]
+    assert sel.x.tolist() == [1.0, 3.0, 4.0]
+
+
+def test_summary_note_and_text_rows_are_dropped_at_intake():
+    body = b"x,y\n1,1\n2,2\n3,3\nMean,2,2\nTotal:,6,6\nnote: invented\nsee attached\n4,4\n"
+    t = read_table(body)
+    assert {k: v.count for k, v in t.report.dropped.items()} == {"summary row": 2, "note row": 1, "text row": 1}
+    assert t.report.rows_read == 8
+    assert t.select().rows_used == 4
+
+
+def test_text_column_kept_as_strings_and_usable_as_group():
+    t = read_table(b"site,x,y,w\nA,1,2,1\nB,2,3,-1\n,3,4,\nA,4,5,2\n")
+    assert t.report.numeric_columns == ["x", "y", "w"]
+    assert t.frame["site"].dtype == "str"
+    assert t.frame["x"].dtype == np.float64
+    sel = t.select("x", "y", weights="w", group="site")
+    assert sel.rows_used == 2
+    assert sel.group.tolist() == ["A", "A"]
+    assert sel.weights.tolist() == [1.0, 2.0]
+    assert sel.dropped["negative weights"] == DropInfo(1, [3])
+    assert sel.dropped["missing or non-numeric weights"] == DropInfo(1, [4])
+    assert sel.rows_used + sel.rows_dropped == t.report.rows_read
+    json.dumps(sel.to_dict(), allow_nan=False)
+
+
+def test_numeric_group_gives_float_array():
+    sel = read_table(b"x,y,batch\n1,2,1\n2,3,1\n3,4,2\n").select(group="batch")
+    assert sel.group.dtype == np.float64 and sel.group.tolist() == [1.0, 1.0, 2.0]
+
+
+def test_select_defaults_and_partial_choice():
+    t = read_table(b"a,b,c\n1,2,3\n2,3,4\n3,4,5\n")
+    assert (t.select().x_name, t.select().y_name) == ("a", "b")
+    assert (t.select("c").x_name, t.select("c").y_name) == ("c", "a")
+    assert (t.select(y="a").x_name, t.select(y="a").y_name) == ("b", "a")
+
+
+def test_unknown_column_lists_available_names():
+    t = read_table(b"site,x,y\nA,1,2\nB,2,3\n")
+    with pytest.raises(ColumnError) as info:
+        t.select("time", "y")
+    msg = str(info.value)
+    assert "'time'" in msg and "'site', 'x', 'y'" in msg
+    with pytest.raises(ColumnError, match="holds text"):
+        t.select("site", "y")
+    with pytest.raises(ColumnError):
+        t.select("x", "y", group="nope")
+
+
+def test_fewer_than_two_distinct_x_values_is_a_fit_error():
+    t = read_table(b"x,y\n1,1\n1,2\n1,3\nNA,4\n")
+    with pytest.raises(FitError) as info:
+        t.select()
+    assert str(info.value) == (
+        "x has fewer than two distinct values; a curve needs at least two. Choose another x column."
+    )
+    with pytest.raises(FitError, match="No row has finite numbers"):
+        read_table(b"x,y\n1,NA\nNA,2\n3,NA\n").select()
+
+
+def test_ragged_rows_truncated_and_counted():
+    t = read_table(b"x,y\n1,1\n2,2,oops\n3,3,,\n4,4,a,b\n5\n6,6\n7,7\n")
+    assert t.report.columns == ["x", "y"]
+    assert t.report.rows_read == 7
+    assert any("2 rows had more fields than the header (lines 3, 5)" in n for n in t.report.notes)
+    assert any("1 row had fewer fields than the header (line 6)" in n for n in t.report.notes)
+    assert t.select().rows_used == 6
+
+
+def test_blank_and_delimiter_only_lines_are_not_rows():
+    t = read_table(b"\n\nx;y\n;\n1;2\n\n 2;3 \n;;\n3;4\n")
+    assert t.report.rows_read == 3
+    assert t.line_numbers.tolist() == [5, 7, 9]
+
+
+def test_quoted_fields_over_several_lines_get_their_first_line():
+    t = read_table(b'x,y,c\n1,2,"a\nb"\n2,3,ok\n3,4,"c\n\nd"\n4,5,e\n')
+    assert t.line_numbers.tolist() == [2, 4, 5, 8]
+    # Lines are classified before quotes are considered, so the blank line inside the
+    # third quoted field is skipped like any blank line (module docstring, rule 5).
+    assert t.frame["c"].tolist() == ["a\nb", "ok", "c\nd", "e"]
+    assert any("run over several lines" in n for n in t.report.notes)
+
+
+def test_clean_file_uses_the_fast_path(monkeypatch):
+    def boom(*a, **k):
+        raise AssertionError("the general path was used")
+
+    monkeypatch.setattr(_intake, "_parse_general", boom)
+    body = "t,v\n" + "".join(f"{i},{i * 0.5}\n" for i in range(1000))
+    assert read_table(body.encode()).report.rows_read == 1000
+    body = "t;v\n" + "".join(f"{i};{i},5\n" for i in range(1000))  # decimal comma too
+    assert read_table(body.encode()).frame["v"].iloc[1] == 1.5
+
+
+def test_random_clean_table_matches_pandas():
+    # Outside reference: pandas.read_csv (default C engine), plus the values themselves:
+    # pandas writes floats with repr, so the exact values must come back.
+    rng = np.random.default_rng(3)
+    df = pd.DataFrame({"a": rng.normal(size=2000), "b": rng.uniform(-1e6, 1e6, size=2000)})
+    data = df.to_csv(index=False).encode()
+    ref = pd.read_csv(io.BytesIO(data))
+    pd.testing.assert_frame_equal(ref, df, check_exact=True)
+    pd.testing.assert_frame_equal(read_table(data).frame, ref, check_exact=True)
+    pd.testing.assert_frame_equal(_general(data).frame, ref, check_exact=True)
+
+
+def test_frame_is_plain_and_line_numbers_read_only():
+    t = read_table(b"x,y\n1,2\n2,3\n")
+    assert isinstance(t.frame.index, pd.RangeIndex)
+    with pytest.raises(ValueError):
+        t.line_numbers[0] = 99
+
+
+# --------------------------------------------------------------------------- inputs and errors
+
+
+def test_bytes_like_inputs_and_names(tmp_path):
+    data = b"x,y\n1,2\n2,3\n"
+    assert read_table(data).report.source_name == "upload"
+    assert read_table(bytearray(data), name="bench.csv").report.source_name == "bench.csv"
+    assert read_table(memoryview(data)).report.rows_read == 2
+    p = tmp_path / "run 7.csv"
+    p.write_bytes(data)
+    assert read_table(str(p)).report.source_name == "run 7.csv"
+    assert read_table(p, name="shown").report.source_name == "shown"
+
+
+def test_size_limit_on_bytes_and_paths(tmp_path):
+    data = b"x,y\n" + b"1,2\n" * 3000  # 12,004 bytes
+    with pytest.raises(FileTooLargeError) as info:
+        read_table(data, max_bytes=10_000)
+    msg = str(info.value)
+    assert "11.7 KiB" in msg and "9.8 KiB" in msg and "max_bytes" in msg
+    assert info.value.size_bytes == len(data) and info.value.limit_bytes == 10_000
+    p = tmp_path / "big.csv"
+    p.write_bytes(data)
+    with pytest.raises(FileTooLargeError, match="over the 9.8 KiB size limit"):
+        read_table(p, max_bytes=10_000)
+    assert read_table(p, max_bytes=len(data)).report.rows_read == 3000
+    assert DEFAULT_MAX_BYTES == 512 * 1024 * 1024
+    assert "512 MiB" in _intake.__doc__
+
+
+def test_path_errors(tmp_path):
+    with pytest.raises(IntakeError, match="There is no file at"):
+        read_table(tmp_path / "absent.csv")
+    with pytest.raises(IntakeError, match="is a folder"):
+        read_table(tmp_path)
+    with pytest.raises(TypeError):
+        read_table(12)
+    with pytest.raises(ValueError):
+        read_table(b"x,y\n1,2\n", max_bytes=0)
+
+
+@pytest.mark.parametrize(
+    "data, text",
+    [
+        (b"", "is empty"),
+        (b"\xef\xbb\xbf", "is empty"),
+        (b"x,y\n", "but no data rows"),
+        (b"x,y\n\n\n", "but no data rows"),
+        (b"x\n1\n2\n", "only one column"),
+        (b"name,v\na,1\nb,2\n", "only one numeric column"),
+        (b"a,b\nc,d\n", "contains no rows of numbers"),
+        (b"PK\x03\x04rest-of-an-xlsx", "looks like a spreadsheet or binary file"),
+        (b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1legacy", "an .xls spreadsheet"),
+        (b"%PDF-1.7\n", "a PDF document"),
+        (b"x,y\n1,2\x00\n", "NUL"),
+        (b"x,y\n\x01\x02\x03\x04\x05\x06,1\n", "control characters"),
+    ],
+)
+def test_intake_errors_are_one_sentence(data, text):
+    with pytest.raises(IntakeError) as info:
+        read_table(data, name="sample.csv")
+    msg = str(info.value)
+    assert text in msg and "'sample.csv'" in msg
+    assert msg.endswith(".") and ". " not in msg.rstrip(".")
+
+
+def test_decoding_errors_never_escape_raw():
+    for data in (b"\xff\xfe\x00\xd8x\x00", b"\xfe\xff\xd8\x00", b"x,y\n\x81\x8d\n"):
+        with pytest.raises(IntakeError):
+            read_table(data)
+
+
+def test_report_and_types_are_frozen_dataclasses():
+    t = read_table(b"x,y\n1,2\n2,3\n")
+    assert isinstance(t.report, IntakeReport)
+    with pytest.raises(AttributeError):
+        t.report.rows_read = 5
+    sel = t.select()
+    assert isinstance(sel, Selection)
+    with pytest.raises(AttributeError):
+        sel.rows_used = 0
