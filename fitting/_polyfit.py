@@ -32,6 +32,7 @@ Notes
 
 from __future__ import annotations
 
+import contextlib
 import decimal
 import math
 import warnings as _warnings
@@ -87,6 +88,34 @@ def validate_xyw(x, y, weights=None) -> tuple[np.ndarray, np.ndarray, np.ndarray
     if np.unique(x).size < 2:
         raise FitError("x has fewer than two distinct values; a curve needs at least two. Choose another x column.")
     return x, y, w
+
+
+# ----------------------------------------------------------------------------
+# BLAS threads
+
+_THREADPOOLS = None
+
+
+def single_thread_blas():
+    """Context manager limiting BLAS to one thread (no-op without threadpoolctl).
+
+    The engine's LAPACK calls are tall-skinny (at most 21 columns) or tiny.
+    Threads gain little on them, and on a loaded machine a multi-threaded BLAS
+    call whose helper thread is descheduled waits a whole time slice at each
+    synchronisation: a 10-fold sweep was measured 30x slower that way. The
+    limit is process-wide while it lasts and is restored afterwards.
+    """
+    global _THREADPOOLS
+    if _THREADPOOLS is None:
+        try:
+            from threadpoolctl import ThreadpoolController
+
+            _THREADPOOLS = ThreadpoolController()
+        except Exception:  # pragma: no cover - threadpoolctl ships with scikit-learn
+            _THREADPOOLS = False
+    if _THREADPOOLS is False:
+        return contextlib.nullcontext()
+    return _THREADPOOLS.limit(limits=1, user_api="blas")
 
 
 # ----------------------------------------------------------------------------
@@ -169,15 +198,18 @@ def _cholesky_ld(g: np.ndarray) -> np.ndarray | None:
     return r
 
 
-def _polish_decimal(x, y, w, offset, scale, through_origin, c_ld, factor, gram):
-    """One refinement step with the residual and gradient in 50-digit decimals.
+def _polish_decimal(x, y, w, offset, scale, through_origin, c_ld, factor, gram, max_steps: int = 4):
+    """Refinement steps with the residual and gradient in 50-digit decimals.
 
     Longdouble residuals carry rounding of about 1e-19 times |y|. When the
     residuals are large (heavy noise) and the power-basis coefficients come out
     of strong cancellation (x far from 0 relative to its range), that rounding
-    alone limits the coefficients to some 11-12 digits. This step removes it on
-    small data sets, where decimals are cheap. Returns (coefficients as
-    Decimals, RSS as Decimal, Gram matrix as nested lists of Decimals).
+    alone limits the coefficients to some 11-12 digits; on ill-conditioned
+    designs it also sets a floor for the longdouble refinement. These steps
+    remove both on small data sets, where decimals are cheap.
+
+    Returns (coefficients as Decimals, RSS as Decimal, Gram matrix as nested
+    lists of Decimals, settled: bool).
     """
     D = decimal.Decimal
     ctx = _POLISH_CTX
@@ -185,11 +217,9 @@ def _polish_decimal(x, y, w, offset, scale, through_origin, c_ld, factor, gram):
     with decimal.localcontext(ctx):
         off = D(float(offset))
         sc = D(float(scale))
-        c = [_basis.as_decimal(v) for v in c_ld]
-        grad = [D(0)] * p
-        mom = [D(0)] * (2 * p - 1)
-        rss = D(0)
         wv = [D(1)] * x.size if w is None else [D(float(v)) for v in w]
+        mom = [D(0)] * (2 * p - 1)
+        basis = []  # per row: (T_0..T_{p-1}, v or None, y, w)
         for xi, yi, wi in zip(x.tolist(), y.tolist(), wv):
             xd = D(xi)
             t = (xd - off) / sc
@@ -201,29 +231,41 @@ def _polish_decimal(x, y, w, offset, scale, through_origin, c_ld, factor, gram):
             mw = wi if v is None else wi * v * v
             for k in range(2 * p - 1):
                 mom[k] += mw * tk[k]
-            f = D(0)
-            for ck, tv in zip(c, tk):
-                f += ck * tv
-            if v is not None:
-                f *= v
-            r = D(yi) - f
-            wr = wi * r
-            rss += wr * r
-            if v is not None:
-                wr *= v
-            for k in range(p):
-                grad[k] += tk[k] * wr
-        g_ld = np.array([LD(str(gv)) for gv in grad], dtype=LD)
-        dc = _solve_rtr(factor, g_ld)
-        dcd = [_basis.as_decimal(v) for v in dc]
-        coef = [ck + dk for ck, dk in zip(c, dcd)]
-        gd = sum((a * b for a, b in zip(dcd, grad)), D(0))
-        quad = _basis.as_decimal((dc @ (gram @ dc)))
-        rss_new = rss - 2 * gd + quad
+            basis.append((tk[:p], v, D(yi), wi))
         gram_dec = [[(mom[i + j] + mom[abs(i - j)]) / 2 for j in range(p)] for i in range(p)]
+        coef = [_basis.as_decimal(v) for v in c_ld]
+        settled = False
+        rss_new = D(0)
+        for _ in range(max_steps):
+            grad = [D(0)] * p
+            rss = D(0)
+            for tk, v, yd, wi in basis:
+                f = D(0)
+                for ck, tv in zip(coef, tk):
+                    f += ck * tv
+                if v is not None:
+                    f *= v
+                r = yd - f
+                wr = wi * r
+                rss += wr * r
+                if v is not None:
+                    wr *= v
+                for k in range(p):
+                    grad[k] += tk[k] * wr
+            g_ld = np.array([LD(str(gv)) for gv in grad], dtype=LD)
+            dc = _solve_rtr(factor, g_ld)
+            dcd = [_basis.as_decimal(v) for v in dc]
+            coef = [ck + dk for ck, dk in zip(coef, dcd)]
+            gd = sum((a * b for a, b in zip(dcd, grad)), D(0))
+            quad = sum((dcd[i] * gram_dec[i][j] * dcd[j] for i in range(p) for j in range(p)), D(0))
+            rss_new = rss - 2 * gd + quad
+            size = max(abs(c) for c in coef)
+            if size == 0 or max(abs(d) for d in dcd) <= D("1e-30") * size:
+                settled = True
+                break
     if rss_new < 0:
         rss_new = D(0)
-    return coef, rss_new, gram_dec
+    return coef, rss_new, gram_dec, settled
 
 
 def _refine_inverse_decimal(gram_dec, inv_ld: np.ndarray, factor: np.ndarray, steps: int = 2):
@@ -533,18 +575,27 @@ def fit_polynomial(
         # Ill-conditioned design: Householder QR of the weighted [A | y] in double precision
         # (O(n d^2)) gives a factor that does not square the condition number.
         sw = None if w is None else np.sqrt(w)
-        rows = rows_ld.astype(np.float64)
+        rows = np.empty((ncols + 1, n))
+        rows[:ncols] = rows_ld
         if through_origin:
-            rows *= x / scale
-        rows = np.vstack([rows, y[None, :]])
+            rows[:ncols] *= x / scale
+        rows[ncols] = y
         if sw is not None:
             rows *= sw
-        r_aug = qr_r(rows.T)
-        factor = r_aug[:ncols, :ncols]
-        cond = condition_of(factor)
+        with single_thread_blas():
+            r_aug = qr_r(rows.T)
+        r_qr = r_aug[:ncols, :ncols]
+        cond = condition_of(r_qr)
         if np.isfinite(cond) and cond <= 1.0 / (max(n, ncols) * np.finfo(np.float64).eps):
-            coef = solve_triangular(factor, r_aug[:ncols, ncols]).astype(LD)
-        contraction = cond * cond * np.finfo(np.float64).eps * 4 * ncols
+            coef = solve_triangular(r_qr, r_aug[:ncols, ncols]).astype(LD)
+        # The QR solution is the better start; for the corrections, the extended-precision
+        # Cholesky factor (when it exists) contracts the error by cond² eps_ld instead of cond² eps.
+        if r_ld is not None:
+            factor = r_ld
+            contraction = cond * cond * _EPS_LD * 4 * ncols
+        else:
+            factor = r_qr
+            contraction = cond * cond * np.finfo(np.float64).eps * 4 * ncols
     if not np.isfinite(cond) or cond > 1.0 / (max(n, ncols) * np.finfo(np.float64).eps):
         msg = (
             f"The design at degree {degree} is numerically rank deficient (condition number {cond:.3g}); "
@@ -561,6 +612,7 @@ def fit_polynomial(
     converged = False
     rss_ld = LD(0)
     grad = np.zeros(ncols, dtype=LD)
+    prev_step = None
     for _ in range(8):
         fitted = np.einsum("j,jn->n", c_ld, rows_ld)
         res = y_ld - (fitted if v_ld is None else v_ld * fitted)
@@ -576,24 +628,36 @@ def fit_polynomial(
         if size == 0 or step <= 4 * _EPS_LD * size or (contraction < 0.5 and contraction * step <= 4 * _EPS_LD * size):
             converged = True
             break
-    if not converged:
-        notes.append(
-            f"The extended-precision refinement did not settle at degree {degree} "
-            f"(condition number {cond:.3g}); the last digits of the coefficients may be inexact."
-        )
+        if prev_step is not None and step > 0.5 * prev_step:
+            break  # no more progress: the rounding floor of longdouble residuals is reached
+        prev_step = step
+    # a floor at a relative step below 1e-12 still leaves the coefficients good to ~12 digits
+    settled = converged or (size > 0 and step <= 1e-12 * size)
     rss_ld = max(rss_ld, LD(0))
     coef_exact = gram_dec = rss_dec = None
-    if converged and n * ncols <= POLISH_LIMIT:
-        coef_exact, rss_dec, gram_dec = _polish_decimal(x, y, w, offset, scale, through_origin, c_ld, factor, gram)
-        rss_ld = LD(str(rss_dec))
+    if n * ncols <= POLISH_LIMIT:
+        polished = _polish_decimal(x, y, w, offset, scale, through_origin, c_ld, factor, gram, max_steps=4 if settled else 12)
+        if polished[3]:  # keep the decimal result only when it settled
+            coef_exact, rss_dec, gram_dec, settled = polished
+            rss_ld = LD(str(rss_dec))
+    if not settled:
+        notes.append(
+            f"The extended-precision refinement did not settle at degree {degree} "
+            f"(condition number {cond:.3g}); the last digits of the coefficients and their standard errors may be inexact."
+        )
     del rows_ld
 
     # --- inverse of the Gram matrix (from moments), refined -----------------
     eye = np.eye(ncols, dtype=LD)
     inv = _solve_rtr(factor, eye)
-    for _ in range(4):
+    err = np.max(np.abs(eye - gram @ inv))
+    for _ in range(6):
         corr = _solve_rtr(factor, eye - gram @ inv)
-        inv = inv + corr
+        trial = inv + corr
+        trial_err = np.max(np.abs(eye - gram @ trial))
+        if not trial_err < err:  # keep the best iterate; a correction that does not help ends the loop
+            break
+        inv, err = trial, trial_err
         if np.max(np.abs(corr)) <= 4 * np.finfo(LD).eps * np.max(np.abs(inv)):
             break
     inv = (inv + inv.T) / 2

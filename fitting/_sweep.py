@@ -38,7 +38,7 @@ from scipy.linalg import solve_triangular
 
 from . import _basis
 from ._errors import FitError
-from ._polyfit import condition_of, qr_r, validate_xyw
+from ._polyfit import condition_of, qr_r, single_thread_blas, validate_xyw
 
 __all__ = ["DegreeSweep", "sweep_degrees", "Block", "Split", "sweep_from_blocks", "block_factor"]
 
@@ -350,6 +350,12 @@ def sweep_degrees(
         The same seed gives the same split, every time.
     weights : array-like of positive floats, default=None
     """
+    with single_thread_blas():
+        return _sweep_degrees(x, y, degrees=degrees, folds=folds, holdout=holdout, ordered=ordered,
+                              repeats=repeats, seed=seed, weights=weights)
+
+
+def _sweep_degrees(x, y, *, degrees, folds, holdout, ordered, repeats, seed, weights) -> DegreeSweep:
     x, y, w = validate_xyw(x, y, weights)
     try:
         repeats = int(repeats)

@@ -95,18 +95,33 @@ def test_large_n_path_against_exact():
     assert min(_scores(fit_polynomial(x, y, 4), ex).values()) >= MIN_LRE
 
 
-def test_ill_conditioned_fallback_path():
-    # Reference: exact rational least squares. x clustered so the mapped design has a condition
-    # number above the fast path's limit; the fit takes the Householder QR route. Invented data.
-    x = np.r_[np.linspace(0, 1e-3, 30), 1.0]
-    y = np.sin(50 * x) + np.random.default_rng(13).normal(0, 1e-3, x.size)
+def _clumped(spread):
+    # Invented: 30 x values packed into [0, spread] plus one at x = 1, so the mapped design is ill-conditioned.
+    x = np.r_[np.linspace(0, spread, 30), 1.0]
+    return x, np.sin(50 * x) + np.random.default_rng(13).normal(0, 1e-3, x.size)
+
+
+@pytest.mark.parametrize("spread", [1e-2, 3e-3])
+def test_ill_conditioned_designs_against_exact(spread):
+    # Reference: exact rational least squares. Condition numbers ~7e6 and ~3e8 after mapping:
+    # the standard error of B0 comes out of heavy cancellation in the covariance; an earlier
+    # version of the engine gave it with 2 correct digits here.
+    x, y = _clumped(spread)
     fit = fit_polynomial(x, y, 4)
     assert fit.condition_number > 1e6
+    scores = _scores(fit, exact_least_squares(x, y, 4))
+    assert min(scores.values()) >= MIN_LRE, scores
+    assert not fit.warnings
+
+
+def test_hopeless_conditioning_is_said():
+    # Condition number ~7e9 after mapping: digits cannot be promised, and the fit must say so.
+    x, y = _clumped(1e-3)
+    fit = fit_polynomial(x, y, 4)
+    assert fit.condition_number > 1e9
+    assert any("did not settle" in m for m in fit.warnings)
     ex = exact_least_squares(x, y, 4)
-    coef, se, sd, r2 = ex.as_float()
-    # with condition number ~1e7+ the contract's digits are not promised; ask for what QR plus refinement gives
-    np.testing.assert_allclose(fit.predict(x), np.polynomial.polynomial.polyval(x, coef), rtol=0, atol=1e-9)
-    assert lre_float(fit.residual_sd, sd) >= 9
+    assert lre_float(fit.residual_sd, ex.as_float()[2]) >= 9  # the fitted curve itself is still sound
 
 
 # ----------------------------------------------------------------------------
