@@ -1,0 +1,79 @@
+"""Exports: CSV neutralising (OWASP CSV injection guidance), model JSON round trip, HTML report."""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+
+import numpy as np
+import pytest
+
+from app import exports, figures
+from app.service import SplitSettings
+from fitting import PolynomialFit
+
+KFOLD = SplitSettings(mode="kfold")
+
+
+@pytest.mark.parametrize("cell", ["=1+1", "+41", "-3", "@SUM(A1)", "\tx", "\rx", "=HYPERLINK(\"http://x\")"])
+def test_formula_starts_get_a_single_quote(cell):
+    # OWASP "CSV Injection": prefix cells beginning with = + - @ tab or CR with a single quote
+    assert exports.neutralise_cell(cell) == "'" + cell
+
+
+@pytest.mark.parametrize("cell,text", [("abc", "abc"), ("1.5", "1.5"), (2.5, "2.5"), (None, ""), (True, "yes")])
+def test_other_cells_are_left_alone(cell, text):
+    assert exports.neutralise_cell(cell) == text
+
+
+def test_predictions_csv_neutralises_names_from_the_file(sensor):
+    service, info, cols = sensor
+    p = service.predict(info.id, cols, KFOLD, 2, np.array([600.0, 5000.0]))
+    text = exports.predictions_csv(p, x_name="=cmd|' /C calc'!A0", y_name="@y")
+    rows = list(csv.reader(io.StringIO(text)))
+    assert rows[0][0].startswith("'=") and rows[0][1].startswith("'@")
+    assert len(rows) == 3
+    assert float(rows[1][0]) == 600.0 and rows[1][-1] == "no" and rows[2][-1] == "yes"
+    assert float(rows[1][1]) == pytest.approx(p.y[0])
+
+
+def test_model_json_round_trips_through_the_engine(sensor):
+    service, info, cols = sensor
+    model = service.model_view(info.id, cols, KFOLD, 3)
+    text = exports.model_json(model.fit)
+    back = PolynomialFit.from_dict(json.loads(text))
+    xs = np.linspace(400, 1800, 9)
+    np.testing.assert_allclose(back.predict(xs), model.fit.predict(xs), rtol=1e-12)
+    np.testing.assert_allclose(back.band(xs, "prediction")[1], model.fit.band(xs, "prediction")[1], rtol=1e-12)
+    assert back.x_name == "output (mV)" and back.domain == model.fit.domain
+
+
+def test_html_report_is_self_contained_and_complete(sensor):
+    service, info, cols = sensor
+    split = SplitSettings()
+    view = service.split_view(info.id, cols, split)
+    dv = service.degree_view(info.id, cols, split, 3)
+    model = service.model_view(info.id, cols, split, 3)
+    page = exports.html_report(info, view, dv, model, figures.fit_figure(view, dv), figures.error_figure(view, dv))
+    assert page.count("<script") >= 2 and "<script src=" not in page  # plotly.js inlined, nothing fetched
+    assert len(page) > 1_000_000
+    for needle in ("Recommended degree: <strong>3</strong>", "x^3", "95 % CI lower", "Header on line 7",
+                   "25% random holdout (seed 0)", "adjusted R²", exports.CAUTION_TEXT[:40]):
+        assert needle in page, needle
+    assert f"{model.coefficient_rows[1]['coefficient']:.10g}" in page
+
+
+def test_html_report_escapes_text_from_the_file(fit_service):
+    text = "<img src=x onerror=alert(1)>,y\n1,2\n2,4.1\n3,6.2\n4,7.9\n5,10.1\n6,12.2\n"
+    info = fit_service.load_bytes(text.encode(), "<script>x</script>.csv")
+    from app.service import Columns
+
+    cols = Columns(info.default_x, info.default_y)
+    split = SplitSettings(mode="kfold", folds=3)
+    view = fit_service.split_view(info.id, cols, split)
+    dv = fit_service.degree_view(info.id, cols, split, 1)
+    model = fit_service.model_view(info.id, cols, split, 1)
+    page = exports.html_report(info, view, dv, model, figures.fit_figure(view, dv), figures.error_figure(view, dv))
+    assert "<img src=x" not in page and "<script>x</script>" not in page
+    assert "&lt;img src=x onerror=alert(1)&gt;" in page
