@@ -7,6 +7,9 @@ Public surface (everything else is private and may change):
     fit_polynomial(x, y, degree, *, weights=None, through_origin=False) -> PolynomialFit
     sweep_degrees(x, y, *, degrees=range(0, 13), folds=10, holdout=None, ordered=False,
                   repeats=1, seed=0, weights=None) -> DegreeSweep
+    sweep_source(source, *, x=None, y=None, degrees=range(0, 13), folds=10, holdout=None,
+                 seed=0, engine="numpy", scheduler=None, chunk_rows=1_000_000,
+                 progress=None) -> (DegreeSweep, report dict)   # CSV, Parquet, folders, Dask
 
 Errors raised on purpose derive from DegreescopeError:
 
@@ -22,6 +25,7 @@ This package never imports the dashboard (``app``), dash or plotly.
 from ._errors import ColumnError, DegreescopeError, FileTooLargeError, FitError, IntakeError, RankWarning
 from ._intake import DEFAULT_MAX_BYTES, DropInfo, IntakeReport, Selection, Table, read_table
 from ._polyfit import PolynomialFit, fit_polynomial
+from ._stream import fold_labels, holdout_mask, sweep_source
 from ._sweep import DegreeSweep, sweep_degrees
 
 __all__ = [
@@ -39,6 +43,9 @@ __all__ = [
     "Selection",
     "Table",
     "fit_polynomial",
+    "fold_labels",
+    "holdout_mask",
     "read_table",
     "sweep_degrees",
+    "sweep_source",
 ]
