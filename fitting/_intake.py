@@ -61,10 +61,13 @@ The rules, in the order they are applied
     file has no header: columns are named "column 1", "column 2", ... and
     ``header_line`` is 0. Every non-blank line above the header (above the data when
     there is no header) is skipped as metadata, and a note says so.
-8.  Decimal mark, from the sample's numeric cells: "," when more cells can only be read
-    with a decimal comma ("3,41", "0,5", "1.250,5", "4,5e2") than with a decimal point,
-    "." otherwise; when nothing decides, an ambiguous "1,250" in a ";"-delimited file
-    counts as a decimal comma. Digit grouping is accepted with the other mark ("," when
+8.  Decimal mark, by a vote of the sample's numeric cells. In a number with both marks
+    the last one is the decimal mark ("1.250,5"); a mark repeated in one number is digit
+    grouping ("1,250,000"); a single mark is the decimal mark when an exponent follows
+    ("4,5e2") or when it is not followed by exactly three digits after one to three
+    digits without a leading zero ("3,41", "0,125", ",5", "1234,567"); "1,250" and
+    "1.250" are ambiguous. "," wins when it has more votes than ".", else "."; when no
+    cell decides, an ambiguous "1,250" in a ";"-delimited file counts for ",". Digit grouping is accepted with the other mark ("," when
     the decimal mark is ".", "." when it is ",") or a space (also no-break spaces), in
     groups of exactly three digits: "1,250.0", "1.250,5", "1 250". ``thousands`` in the
     report is the grouping mark actually used most (None if none).
@@ -864,28 +867,39 @@ def _layout_from(lines: list[str], display: str) -> _Layout:
     )
 
 
-_COMMA_DECIMAL = re.compile(
-    r"\d+,\d{1,2}|\d+,\d{4,}|0,\d+|\d*,\d+[eE][+-]?\d+|\d{1,3}(?:\.\d{3})+,\d*|,\d+|\d{1,3}(?:\.\d{3}){2,}"
-)
-_POINT_DECIMAL = re.compile(
-    r"\d+\.\d{1,2}|\d+\.\d{4,}|0\.\d+|\d*\.\d+[eE][+-]?\d+|\d{1,3}(?:,\d{3})+\.\d*|\.\d+|\d{1,3}(?:,\d{3}){2,}"
-)
-_COMMA_AMBIGUOUS = re.compile(r"\d{1,3},\d{3}")
+_VOTE_SHAPE = re.compile(r"([\d.,]*\d[\d.,]*|[.,]\d+)([eE][+-]?\d+)?")
+
+
+def _decimal_vote(cell: str) -> str | None:
+    """The decimal mark one sample cell speaks for: ".", ",", "?," / "?." (ambiguous), or None."""
+    c = cell.strip().lstrip("+-\u2212").replace(" ", "").replace("\u00a0", "").replace("\u202f", "")
+    m = _VOTE_SHAPE.fullmatch(c)
+    if not m:
+        return None
+    body, exp = m.group(1), m.group(2)
+    seps = [ch for ch in body if ch in ".,"]
+    if not seps:
+        return None
+    if len(set(seps)) == 2:
+        return seps[-1]  # "1.250,5": the last mark is the decimal mark
+    mark = seps[0]
+    other = "," if mark == "." else "."
+    if len(seps) > 1:
+        return other  # "1,250,000": a repeated mark is digit grouping
+    if exp:
+        return mark  # "4,5e2"
+    whole, frac = body.split(mark)
+    if len(frac) != 3 or not whole or whole.startswith("0") or len(whole) > 3:
+        return mark  # "3,41", ",5", "0,125", "1234,567"
+    return "?" + mark  # "1,250": grouping or decimal
 
 
 def _decide_decimal(d: str, cells: list[str]) -> str:
-    comma = point = ambiguous = 0
-    for cell in cells:
-        c = cell.strip().lstrip("+-\u2212")
-        if _COMMA_DECIMAL.fullmatch(c):
-            comma += 1
-        elif _POINT_DECIMAL.fullmatch(c):
-            point += 1
-        elif _COMMA_AMBIGUOUS.fullmatch(c):
-            ambiguous += 1
+    votes = Counter(_decimal_vote(c) for c in cells)
+    comma, point = votes[","], votes["."]
     if comma != point:
         return "," if comma > point else "."
-    if comma == 0 and ambiguous and d == ";":
+    if comma == 0 and votes["?,"] and d == ";":
         return ","
     return "."
 
