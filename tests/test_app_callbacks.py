@@ -36,7 +36,7 @@ def test_upload_decimal_comma_then_pickers_and_charts(fit_service):
     intake, x_opts, x = out[0], out[1], out[2]
     assert x == "Spannung (V)" and out[4] == "Strom (mA)"
     text = str([c.to_plotly_json() for c in intake])
-    assert "decimal mark" in text and "comma" in text
+    assert "decimal mark ','" in text and "semicolon" in text
     res = split(fit_service, store)
     fit_fig, err_fig, max_deg, _, new_degree, rec, *_rest, key, notice = res
     assert notice == "" and key["dataset"] == store["id"]
