@@ -42,7 +42,16 @@ from http.cookies import CookieError, SimpleCookie
 from typing import Any, Callable, Iterable
 from urllib.parse import parse_qsl, quote, urlencode
 
-__all__ = ["build_wsgi", "is_loopback", "make_server", "serve", "RunningServer", "DEFAULT_UPLOAD_LIMIT_BYTES"]
+__all__ = [
+    "DEFAULT_UPLOAD_LIMIT_BYTES",
+    "RunningServer",
+    "build_wsgi",
+    "is_loopback",
+    "make_server",
+    "resolve_token",
+    "serve",
+    "startup_warnings",
+]
 
 DEFAULT_UPLOAD_LIMIT_BYTES = 128 * 1024 * 1024
 DEFAULT_THREADS = 8
@@ -259,6 +268,28 @@ class RunningServer:
             self._thread.join(timeout)
 
 
+def resolve_token(host: str, token: str | None) -> str | None:
+    """``"auto"``: a fresh random token for a non-loopback bind, none for loopback; otherwise as given."""
+    if token == "auto":
+        return None if is_loopback(host) else secrets.token_urlsafe(24)
+    return token
+
+
+def startup_warnings(host: str, *, token: str | None, debug: bool) -> list[str]:
+    """What ``serve`` prints to stderr before it starts (empty for a plain loopback bind)."""
+    out: list[str] = []
+    if not is_loopback(host):
+        out.append(
+            f"serving on {host}, not on this machine's loopback address. The dashboard has no login: "
+            "anyone who can reach this port can use it and see the loaded data."
+        )
+        if token is None:
+            out.append("the access token is turned off (--no-token); nothing stops other people using the dashboard.")
+        if debug:
+            out.append("debug mode shows tracebacks to anyone who can reach the port.")
+    return out
+
+
 def make_server(
     dash_app: Any,
     *,
@@ -276,8 +307,7 @@ def make_server(
     """
     from waitress import create_server
 
-    if token == "auto":
-        token = None if is_loopback(host) else secrets.token_urlsafe(24)
+    token = resolve_token(host, token)
     holder: dict[str, WSGIApp] = {}
 
     def late(environ, start_response):  # the guard needs the port, known only after binding
@@ -316,16 +346,8 @@ def serve(
         dash_app.enable_dev_tools(debug=True, dev_tools_hot_reload=False)
     else:
         dash_app.enable_dev_tools(debug=False)
-    if not is_loopback(host):
-        print(
-            f"warning: serving on {host}, not on this machine's loopback address. The dashboard has no login: "
-            "anyone who can reach this port can use it and see the loaded data.",
-            file=err,
-        )
-        if token is None:
-            print("warning: the access token is turned off (--no-token); nothing stops other people using it.", file=err)
-        if debug:
-            print("warning: debug mode shows tracebacks to anyone who can reach the port.", file=err)
+    for line in startup_warnings(host, token=token, debug=debug):
+        print("warning: " + line, file=err)
     running = make_server(
         dash_app,
         host=host,

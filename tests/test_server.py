@@ -215,3 +215,67 @@ def test_dash_itself_refuses_traversal_without_the_guard(tmp_path):
         resp = client.get(path)
         assert resp.status_code == 404, (path, resp.status_code)
         assert b"NOT-FOR-THE-BROWSER" not in resp.data and b"root:x:" not in resp.data
+
+
+# -- start-up policy (no non-loopback socket is opened by these tests) ----------------------
+
+
+def test_token_policy_and_startup_warnings():
+    from app.server import resolve_token, startup_warnings
+
+    assert resolve_token("127.0.0.1", "auto") is None
+    assert resolve_token("localhost", "auto") is None
+    t1, t2 = resolve_token("0.0.0.0", "auto"), resolve_token("192.0.2.7", "auto")
+    assert t1 and t2 and t1 != t2 and len(t1) >= 32  # secrets.token_urlsafe(24): 32 characters
+    assert resolve_token("0.0.0.0", None) is None  # --no-token
+    assert startup_warnings("127.0.0.1", token="auto", debug=False) == []
+    warn = startup_warnings("0.0.0.0", token="auto", debug=False)
+    assert len(warn) == 1 and "no login" in warn[0] and "anyone who can reach this port" in warn[0]
+    warn = startup_warnings("192.0.2.7", token=None, debug=True)
+    assert len(warn) == 3 and any("--no-token" in w for w in warn) and any("debug" in w for w in warn)
+
+
+def test_url_shows_the_token_for_the_bound_address():
+    srv = make_server(_tiny_wsgi, host="127.0.0.1", port=0, threads=1, token="abc")
+    try:
+        assert srv.url == f"http://127.0.0.1:{srv.port}/?token=abc"
+    finally:
+        srv.stop()
+
+
+def test_real_dashboard_behind_the_guard(running):
+    from app import create_app
+
+    srv = running(create_app(None))
+    status, headers, body = _request(srv.port, "/")
+    assert status == 200 and b"<html" in body.lower()
+    assert headers["X-Frame-Options"] == "DENY"
+    status, _, body = _request(srv.port, "/_dash-layout")
+    assert status == 200 and b"sensor_calibration.csv" in body
+    status, _, _ = _request(srv.port, "/_dash-layout", host="rebound.example:%d" % srv.port)
+    assert status == 421
+    # an upload is parsed as data: a pickle or a script is refused with a message, never run
+    import base64
+    import json
+    import pickle
+
+    class Boom:
+        def __reduce__(self):
+            return (exec, ("open('/tmp/degreescope-pwned', 'w').write('x')",))
+
+    for payload, name in ((pickle.dumps(Boom()), "data.pkl"), (b"#!/bin/sh\nid > /tmp/degreescope-pwned\n", "run.sh")):
+        body = json.dumps({
+            "output": "..dataset.data...upload-notice.children..",
+            "outputs": [{"id": "dataset", "property": "data"}, {"id": "upload-notice", "property": "children"}],
+            "inputs": [{"id": "upload", "property": "contents",
+                        "value": "data:application/octet-stream;base64," + base64.b64encode(payload).decode()}],
+            "state": [{"id": "upload", "property": "filename", "value": name}],
+            "changedPropIds": ["upload.contents"],
+        }).encode()
+        status, _, resp = _request(srv.port, "/_dash-update-component", method="POST", body=body,
+                                   headers={"Content-Type": "application/json"})
+        assert status == 200, resp[:300]
+        answer = json.loads(resp)["response"]
+        assert "dataset" not in answer or answer["dataset"].get("data") in (None, {})  # nothing was loaded
+        assert "upload-notice" in answer
+        assert not Path("/tmp/degreescope-pwned").exists()
