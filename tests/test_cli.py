@@ -490,3 +490,60 @@ def test_installed_console_script(tmp_path):
     assert rc == 0, err
     assert json.loads(out)["degree"] == 1
     assert_one_error_line(*run("fit", "nope.csv", "--degree", "1", script=True))
+
+
+# -- serve -------------------------------------------------------------------------------
+
+
+def _serve_process(*extra):
+    env = dict(os.environ, PYTHONPATH=str(ROOT), PYTHONUNBUFFERED="1")
+    return subprocess.Popen(
+        [sys.executable, "-m", "app.cli", "serve", "--port", "0", "--threads", "2", *map(str, extra)],
+        stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, cwd=ROOT, env=env,
+    )
+
+
+def _first_line(stream, proc, limit=60.0):
+    import select
+    import time
+
+    end = time.monotonic() + limit
+    while time.monotonic() < end:
+        ready, _, _ = select.select([stream], [], [], 0.5)
+        if ready:
+            return stream.readline()
+        if proc.poll() is not None:
+            return ""
+    return ""
+
+
+def test_serve_prints_a_loopback_url_and_guards_it():
+    import http.client
+    from urllib.parse import urlparse
+
+    proc = _serve_process(SENSOR)
+    try:
+        line = _first_line(proc.stdout, proc)
+        assert line.startswith("degreescope dashboard: http://127.0.0.1:"), line
+        url = urlparse(line.split(": ", 1)[1].strip())
+        assert url.hostname == "127.0.0.1" and "token" not in (url.query or "")
+        conn = http.client.HTTPConnection("127.0.0.1", url.port, timeout=20)
+        conn.request("GET", "/_dash-layout")
+        resp = conn.getresponse()
+        assert resp.status == 200 and b"sensor_calibration.csv" in resp.read()
+        conn.request("GET", "/_dash-layout", headers={"Host": "rebind.example:%d" % url.port})
+        resp = conn.getresponse()
+        resp.read()
+        assert resp.status == 421
+        conn.close()
+    finally:
+        proc.terminate()
+        proc.wait(timeout=20)
+        proc.stdout.close()
+        proc.stderr.close()
+
+
+def test_serve_bad_file_and_bad_port_exit_2():
+    assert_one_error_line(*run("serve", "no-such-data.csv"))
+    assert_one_error_line(*run("serve", "--port", "70000"))
+    assert_one_error_line(*run("serve", "--threads", "0"))
