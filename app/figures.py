@@ -31,7 +31,7 @@ PRED_FILL = "rgba(120, 128, 140, 0.16)"
 EXTRAP_FILL = "rgba(217, 115, 13, 0.08)"
 STEADY = "#5e6b75"
 HIGHLIGHT = "#b8002e"
-FONT = "Source Sans 3, Segoe UI, Noto Sans, Helvetica Neue, Arial, sans-serif"
+FONT = '"Source Sans 3", "Segoe UI", "Noto Sans", "DejaVu Sans", Arial, sans-serif'
 WEBGL_FROM = 5_000  # points per trace above which WebGL is used
 
 CONFIDENCE = "confidence"
@@ -45,7 +45,7 @@ def _base_layout(title: str, x_title: str, y_title: str, caption: str) -> dict:
         font=dict(family=FONT, size=13, color=INK),
         paper_bgcolor=PAPER,
         plot_bgcolor="#ffffff",
-        margin=dict(l=72, r=24, t=96, b=104),
+        margin=dict(l=72, r=24, t=96, b=100),
         xaxis=dict(title=dict(text=x_title), gridcolor=GRID, zeroline=False, showline=True, linecolor="#9aa3a8", mirror=True),
         yaxis=dict(title=dict(text=y_title), gridcolor=GRID, zeroline=False, showline=True, linecolor="#9aa3a8", mirror=True),
         legend=dict(orientation="h", yanchor="bottom", y=1.015, xanchor="left", x=0, font=dict(size=12),
@@ -70,7 +70,8 @@ def _caption(lines) -> dict:
         xref="paper",
         yref="paper",
         x=0,
-        y=-0.15,
+        y=0,
+        yshift=-54,  # pixels below the plot area, under the x-axis title, at any image size
         yanchor="top",
         xanchor="left",
         showarrow=False,
@@ -272,7 +273,6 @@ def residual_figure(view: SplitView, model: ModelView) -> go.Figure:
                           ("y − fitted value" + ("; a random sample of the points is shown." if model.residual_sampled else "."),
                            f"The fit used {model.fitted_rows}."))
     layout["margin"] = dict(l=70, r=24, t=64, b=80)
-    layout["annotations"][0]["y"] = -0.22
     layout["shapes"] = [dict(type="line", xref="paper", x0=0, x1=1, yref="y", y0=0, y1=0,
                              line=dict(color="#7d868c", width=1.2, dash="dot"))]
     fig.update_layout(**layout)
