@@ -78,7 +78,8 @@ The rules, in the order they are applied
     range become infinite. Anything else in a numeric column is "not a number": it is
     read as missing and counted in a note.
 10. Missing markers (any case, after trimming): empty, ``NA``, ``N/A``, ``n.a.``,
-    ``#N/A``, ``#NA``, ``-``, ``--``, ``NaN``, ``-nan``, ``null``, ``None``, ``missing``.
+    ``#N/A``, ``#NA``, ``-``, ``--``, ``null``, ``None``, ``missing``, and NaN in every
+    form a float parser takes (``NaN``, ``-nan``, ``+nan``, ``nan(0x1)``).
 11. Rows. After the header, every remaining line (a quoted field may join several
     lines into one row) is a data row and counts in ``rows_read``. A row with more
     fields than the header is truncated (a note counts those whose extra fields are
@@ -162,6 +163,9 @@ _MISSING = frozenset(
     ["", "na", "n/a", "n.a.", "#n/a", "#na", "-", "--", "nan", "-nan", "null", "none", "missing"]
 )
 _MISSING_ARROW = pa.array(sorted(_MISSING), pa.large_string())
+# Every spelling of NaN that Arrow's float conversion accepts ("+nan", "nan(0x1)") is a
+# missing marker as well, so the fast and the general path cannot disagree on it.
+_NAN_FORMS = "(?i)^[+-]?nan(?:\\([0-9a-z_]*\\))?$"
 # Exact spellings handed to Arrow's CSV reader as nulls on the fast path; any other case
 # of a marker makes the fast path give up and the general path (any case) take over.
 _ARROW_NULLS = sorted({v for m in _MISSING for v in (m, m.upper(), m.title())})
@@ -186,6 +190,7 @@ _WS = " \t\x0b\x0c\u00a0\u1680\u2000-\u200a\u202f\u205f\u3000"
 _CONTROL = re.compile("[\x00-\x08\x0b\x0e-\x19\x1b-\x1f\x7f-\x9f]")
 _SHEET_ERROR = "(?i)^#(?:n/?a(?:[^a-z]|$)|value!|div/0!|ref!|name\\?|num!|null!|spill!|calc!)"
 _SHEET_ERROR_RE = re.compile(_SHEET_ERROR)
+_NAN_FORMS_RE = re.compile(_NAN_FORMS)
 _SUMMARY = (
     "(?i)^(?:mean|average|avg|grand total|total|totals|subtotal|sum|std|stdev|std\\.? ?dev"
     "|standard deviation|sd|min|minimum|max|maximum|median|count|variance|range|%?rsd|cv"
@@ -198,7 +203,7 @@ _NOTE = "(?i)^(?:note|notes|remark|remarks|comment|comments|nb)[" + _WS + "]*:"
 _NUMLIKE = re.compile(
     "[+\\-\u2212]?(?:\\d{1,3}(?:[,. \u00a0\u202f]\\d{3})+(?:[.,]\\d*)?|\\d+(?:[.,]\\d*)?|[.,]\\d+)"
     "(?:[eE][+\\-\u2212]?\\d+)?|[+\\-\u2212]?(?:inf|infinity|\u221e)",
-    re.IGNORECASE,
+    re.IGNORECASE | re.ASCII,
 )
 _UNIT_BRACKET = re.compile(r"^(?P<name>.*?)\s*(?:\((?P<p>[^()]*)\)|\[(?P<b>[^\[\]]*)\])$")
 _UNIT_SLASH = re.compile(r"^(?P<name>.*\S)\s+/\s+(?P<u>\S.*)$")
@@ -680,7 +685,7 @@ def _sample_records(lines: list[str], keep: list[int], d: str) -> list[tuple[int
 
 def _cell_kind(cell: str) -> str:
     c = cell.strip()
-    if c.lower() in _MISSING:
+    if c.lower() in _MISSING or _NAN_FORMS_RE.match(c):
         return "miss"
     if _NUMLIKE.fullmatch(c):
         return "num"
@@ -867,7 +872,7 @@ def _layout_from(lines: list[str], display: str) -> _Layout:
     )
 
 
-_VOTE_SHAPE = re.compile(r"([\d.,]*\d[\d.,]*|[.,]\d+)([eE][+-]?\d+)?")
+_VOTE_SHAPE = re.compile(r"([\d.,]*\d[\d.,]*|[.,]\d+)([eE][+-]?\d+)?", re.ASCII)
 
 
 def _decimal_vote(cell: str) -> str | None:
@@ -983,18 +988,27 @@ def _np_bool(arr) -> np.ndarray:
     return np.asarray(pc.fill_null(arr, False).to_numpy(zero_copy_only=False), dtype=bool)
 
 
+def _match_where(arr, where: np.ndarray, pattern: str) -> np.ndarray:
+    """The regex match of ``arr`` against ``pattern``, evaluated only where ``where`` is true."""
+    out = np.zeros(len(arr), dtype=bool)
+    idx = np.nonzero(where)[0]
+    if idx.size:
+        out[idx] = _np_bool(pc.match_substring_regex(arr.take(pa.array(idx)), pattern))
+    return out
+
+
 def _parse_general(region: str, layout: _Layout) -> _Columns:
     d, k = layout.delimiter, layout.k
     lines = pc.list_flatten(pc.split_pattern(pa.array([region], pa.large_string()), "\n"))
     trimmed = pc.utf8_trim_whitespace(lines)
-    blank = pc.or_(
-        pc.match_substring_regex(trimmed, _blank_re(d)), pc.match_substring_regex(trimmed, _rule_re(d))
-    )
-    comment = pc.and_(
-        pc.match_substring_regex(trimmed, _comment_re(d)),
-        pc.invert(pc.match_substring_regex(trimmed, _SHEET_ERROR)),
-    )
-    blank_np, comment_np = _np_bool(blank), _np_bool(comment)
+    # Cheap prefixes first; the patterns of rule 5 then run only on the candidates.
+    starts = {c: _np_bool(pc.starts_with(trimmed, c)) for c in {d, "#", "//", ";", "-", "=", "_", ":", "+", "|"}}
+    empty_line = _np_bool(pc.equal(trimmed, ""))
+    blank_np = empty_line | _match_where(trimmed, starts[d], _blank_re(d))
+    rule_cand = np.logical_or.reduce([starts[c] for c in {d, "-", "=", "_", ":", "+", "|"}])
+    blank_np |= _match_where(trimmed, rule_cand & ~blank_np, _rule_re(d))
+    comment_cand = starts["#"] | starts["//"] | (starts[";"] if d != ";" else False)
+    comment_np = comment_cand & ~_match_where(trimmed, comment_cand, _SHEET_ERROR)
     keep_line = ~(blank_np | comment_np)
     all_numbers = np.arange(layout.data_start, layout.data_start + len(lines), dtype=np.int64)
     comment_lines = all_numbers[comment_np]
@@ -1039,22 +1053,34 @@ def _parse_general(region: str, layout: _Layout) -> _Columns:
     missing = [p[2] for p in parsed]
     text_cell = [~v & ~m for v, m in zip(valid, missing)]
 
-    # Row kinds removed at intake.
+    # Row kinds removed at intake (rule 12). Each needs a text cell in the row (a
+    # header name that is a number or a marker aside), so only those rows are examined.
+    summary = np.zeros(n, dtype=bool)
+    note = np.zeros(n, dtype=bool)
+    repeated = np.zeros(n, dtype=bool)
     if n:
         any_number = np.logical_or.reduce(valid)
         any_text = np.logical_or.reduce(text_cell)
-        first = pc.coalesce(*[pc.if_else(pa.array(e), pa.scalar(None, c.type), c) for e, c in zip(empty, trimmed_cols)])
-        summary = _np_bool(pc.match_substring_regex(first, _SUMMARY))
-        note = _np_bool(pc.match_substring_regex(first, _NOTE))
-        if layout.header_names is not None and any(h.strip() for h in layout.header_names):
-            heads = [" ".join(h.split()) for h in layout.header_names]
-            repeated = np.logical_and.reduce(
-                [_np_bool(pc.equal(_collapse(c), h)) for c, h in zip(trimmed_cols, heads)]
-            )
-        else:
-            repeated = np.zeros(n, dtype=bool)
     else:
-        any_number = any_text = summary = note = repeated = np.zeros(0, dtype=bool)
+        any_number = any_text = np.zeros(0, dtype=bool)
+    heads = None
+    if layout.header_names is not None and any(h.strip() for h in layout.header_names):
+        heads = [" ".join(h.split()) for h in layout.header_names]
+    cand = any_text if heads is None or any(_cell_kind(h) == "text" for h in heads) else np.ones(n, dtype=bool)
+    idx = np.nonzero(cand)[0]
+    if idx.size:
+        take = pa.array(idx)
+        sub_cols = [c.take(take) for c in trimmed_cols]
+        sub_empty = [e[idx] for e in empty]
+        first = pc.coalesce(
+            *[pc.if_else(pa.array(e), pa.scalar(None, c.type), c) for e, c in zip(sub_empty, sub_cols)]
+        )
+        summary[idx] = _np_bool(pc.match_substring_regex(first, _SUMMARY))
+        note[idx] = _np_bool(pc.match_substring_regex(first, _NOTE))
+        if heads is not None:
+            repeated[idx] = np.logical_and.reduce(
+                [_np_bool(pc.equal(_collapse(c), h)) for c, h in zip(sub_cols, heads)]
+            )
     text_row = ~any_number & any_text
     dropped: dict[str, DropInfo] = {}
     taken = np.zeros(n, dtype=bool)
@@ -1138,10 +1164,12 @@ def _collapse(arr):
 
 def _tokens_plain(kept, kept_numbers: np.ndarray, d: str, k: int):
     """Split lines without quotes on the delimiter, vectorised."""
-    counts = pc.list_value_length(pc.split_pattern(kept, d)).to_numpy(zero_copy_only=False).astype(np.int64)
-    pad = pa.scalar(d * k, kept.type)
-    padded = pc.split_pattern(pc.binary_join_element_wise(kept, pad, pa.scalar("", kept.type)), d)
-    cols = [pc.list_element(padded, j) for j in range(k)]
+    split = pc.split_pattern(kept, d)
+    counts = pc.list_value_length(split).to_numpy(zero_copy_only=False).astype(np.int64)
+    if counts.size and counts.min() < k:
+        pad = pa.scalar(d * k, kept.type)
+        split = pc.split_pattern(pc.binary_join_element_wise(kept, pad, pa.scalar("", kept.type)), d)
+    cols = [pc.list_element(split, j) for j in range(k)] if counts.size else [pa.array([], pa.large_string())] * k
     extra = np.zeros(len(counts), dtype=bool)
     long_idx = np.nonzero(counts > k)[0]
     if long_idx.size:
@@ -1197,32 +1225,58 @@ def _number_patterns(decimal: str):
 
 
 def _parse_numbers(arr, decimal: str):
-    """Parse a column of trimmed strings: (float64 values, is_number, is_missing, grouping masks)."""
+    """Parse a column of trimmed strings: (float64 values, is_number, is_missing, grouping masks).
+
+    The plain pattern runs on every cell; markers, infinities and digit grouping are
+    checked only on the cells it rejects.
+    """
     plain_re, inf_re, grouped_re = _number_patterns(decimal)
-    low = pc.utf8_lower(arr)
-    missing = _np_bool(pc.is_in(low, value_set=_MISSING_ARROW))
+    n = len(arr)
     s = arr
-    if pc.any(pc.match_substring(s, "\u2212")).as_py():
+    if n and pc.any(pc.match_substring(s, "\u2212")).as_py():
         s = pc.replace_substring(s, "\u2212", "-")
-    if pc.any(pc.match_substring(s, "\u221e")).as_py():
+    if n and pc.any(pc.match_substring(s, "\u221e")).as_py():
         s = pc.replace_substring(s, "\u221e", "inf")
-    valid = _np_bool(pc.match_substring_regex(s, plain_re)) | _np_bool(pc.match_substring_regex(s, inf_re))
-    canon = s
+    plain = _np_bool(pc.match_substring_regex(s, plain_re))
+    valid = plain.copy()
+    missing = np.zeros(n, dtype=bool)
     groups: dict[str, np.ndarray] = {}
-    for g, pattern in grouped_re.items():
-        if not pc.any(pc.match_substring(s, g)).as_py():
-            continue
-        m = _np_bool(pc.match_substring_regex(s, pattern)) & ~valid
-        if m.any():
-            canon = pc.if_else(pa.array(m), pc.replace_substring(canon, g, ""), canon)
-            key = " " if g in "\u00a0\u202f" else g
-            groups[key] = groups.get(key, np.zeros(len(m), dtype=bool)) | m
-            valid = valid | m
-    if decimal == ",":
-        canon = pc.replace_substring(canon, ",", ".")
-    values = pc.cast(pc.if_else(pa.array(valid), canon, pa.scalar(None, canon.type)), pa.float64())
-    out = np.asarray(values.to_numpy(zero_copy_only=False), dtype=np.float64)
-    return out, valid, missing & ~valid, groups
+    out = np.full(n, np.nan, dtype=np.float64)
+    rest = np.nonzero(~plain)[0]
+    rest_canon = None
+    rest_valid = np.zeros(rest.size, dtype=bool)
+    if rest.size:
+        take = pa.array(rest)
+        sub, sub_raw = s.take(take), arr.take(take)
+        rest_valid = _np_bool(pc.match_substring_regex(sub, inf_re))
+        rest_canon = sub
+        for g, pattern in grouped_re.items():
+            if not pc.any(pc.match_substring(sub, g)).as_py():
+                continue
+            m = _np_bool(pc.match_substring_regex(sub, pattern)) & ~rest_valid
+            if m.any():
+                rest_canon = pc.if_else(pa.array(m), pc.replace_substring(rest_canon, g, ""), rest_canon)
+                key = " " if g in "\u00a0\u202f" else g
+                full = groups.setdefault(key, np.zeros(n, dtype=bool))
+                full[rest[m]] = True
+                rest_valid |= m
+        miss = _np_bool(pc.is_in(pc.utf8_lower(sub_raw), value_set=_MISSING_ARROW))
+        miss |= _np_bool(pc.match_substring_regex(sub_raw, _NAN_FORMS))
+        missing[rest] = miss & ~rest_valid
+        valid[rest] = rest_valid
+
+    def to_float(strings) -> np.ndarray:
+        if decimal == ",":
+            strings = pc.replace_substring(strings, ",", ".")
+        return np.asarray(pc.cast(strings, pa.float64()).to_numpy(zero_copy_only=False), dtype=np.float64)
+
+    if plain.all():
+        out = to_float(s) if n else out
+    elif plain.any():
+        out[plain] = to_float(s.filter(pa.array(plain)))
+    if rest_valid.any():
+        out[rest[rest_valid]] = to_float(rest_canon.filter(pa.array(rest_valid)))
+    return out, valid, missing, groups
 
 
 def _inf_notes(values: np.ndarray, lines: np.ndarray) -> list[str]:
