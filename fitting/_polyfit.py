@@ -2,32 +2,48 @@
 
 How the fit is computed
 -----------------------
-1. x is mapped to t in [-1, 1] (see ``_basis.domain_map``) and the design
-   matrix holds Chebyshev polynomials T_0(t) .. T_d(t), scaled by sqrt(weight).
-2. Householder QR of the augmented matrix [A | y] in double precision (LAPACK
-   geqrf via numpy) gives R and Q^T y without forming Q. This is the only
-   O(n d^2) step. The normal equations are never formed from A.
-3. The solution is refined in extended precision (np.longdouble, 80-bit on
-   x86-64): the residual r = y - A c and the gradient A^T r are computed in
-   longdouble, and the correction solves R^T R dc = A^T r with the double R
-   (corrected semi-normal equations). Each step costs O(n d).
-4. The Gram matrix A^T A is assembled in longdouble from 2d + 1 Chebyshev
-   moments (T_i T_j = (T_{i+j} + T_{|i-j|}) / 2), again O(n d), and inverted by
-   the same refinement, for the covariance.
-5. Chebyshev coefficients and their covariance are converted to the power basis
-   of the original x exactly, in rational arithmetic, and rounded once.
+1. x is mapped to t in [-1, 1] (see ``_basis.domain_map``) and the basis is
+   T_0(t) .. T_d(t) (times z = x / scale for a fit through the origin). The
+   basis rows are built once, in extended precision (np.longdouble, 80-bit on
+   x86-64), and reused by every later step. Weights w multiply squared residuals.
+2. The Gram matrix A^T W A comes from 2d + 1 Chebyshev moments
+   (T_i T_j = (T_{i+j} + T_{|i-j|}) / 2; the moments above d reuse the stored
+   rows through T_{d+j} = 2 T_d T_j - T_{d-j}), O(n d). Its Cholesky factor R,
+   in longdouble, gives a first solution from the normal equations.
+3. Iterative refinement with residuals in longdouble: c <- c + (R^T R)^-1 A^T W r.
+   Each step is two O(n d) passes; the loop stops as soon as the predicted
+   error of the next step is below rounding (one step on a well-conditioned
+   design) or when it reaches the rounding floor. The RSS at the final
+   coefficients follows from the last residual without another pass.
+4. When the mapped design is ill-conditioned (condition number above
+   ``FAST_CONDITION_LIMIT``), the first solution comes instead from a
+   Householder QR of [A | y] in double precision (LAPACK dgeqrf, O(n d^2)),
+   which does not square the condition number; the corrections still use the
+   longdouble factor when it exists.
+5. Small fits (rows x coefficients <= ``POLISH_LIMIT``) get further refinement
+   steps whose residual, gradient and Gram matrix are computed in 50-digit
+   decimals, and a decimal refinement of the inverse Gram matrix. This removes
+   the longdouble rounding of large residuals, which alone would cap heavily
+   noisy sets such as NIST's Wampler5 at about 11.5 digits.
+6. Chebyshev coefficients and their covariance are converted to the power basis
+   of the original x in 80-digit decimals and rounded once.
 
-This reaches at least 11 correct digits (LRE) on every polynomial set of the
-NIST StRD linear suite that the test-suite holds, including Filip, where
-double-precision fits on raw powers lose the rank.
+This reaches at least 13 correct digits (LRE) on the NIST StRD polynomial sets
+the test-suite holds (limited by the rounding of their decimal data to
+doubles) and all 15 printed digits on exactly representable sets such as
+Wampler1, Wampler3-5 and NoInt1-2.
 
 Notes
 -----
 * Double-precision data limit what any method can recover. For designs whose
-  mapped Chebyshev basis has a condition number above about 1e8 the refinement
-  may not converge; the fit then keeps the double-precision QR solution and says
-  so in ``warnings``.
+  mapped Chebyshev basis has a condition number above about 1e9 the refinement
+  may not settle; the fit then keeps its best solution and says so in
+  ``warnings``: the last digits of coefficients and standard errors are then
+  not to be trusted.
 * ``degree`` may not exceed the number of distinct x values minus one.
+* Large fits take about 1.5-2x the time of numpy's ``Polynomial.fit`` (see
+  benchmarks/bench_fit.py); most of it is longdouble arithmetic, which has no
+  vector instructions.
 """
 
 from __future__ import annotations
