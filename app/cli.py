@@ -40,7 +40,7 @@ from ._atomic import write_csv_atomic, write_text_atomic
 __all__ = ["main", "build_parser"]
 
 MIB = 1024 * 1024
-DEFAULT_SIZE_LIMIT_MB = 512  # matches fitting's DEFAULT_MAX_BYTES (512 MiB)
+DEFAULT_SIZE_LIMIT_MB = fitting.DEFAULT_MAX_BYTES // MIB  # the engine's intake limit, 512 MiB
 STREAM_ABOVE_BYTES = 64 * MIB
 DEFAULT_MAX_DEGREE = 12
 SAMPLE = Path(__file__).resolve().parent.parent / "sample_data" / "sensor_calibration.csv"
@@ -285,10 +285,7 @@ def _existing_file(path: str, what: str = "file") -> Path:
 
 
 def _read(path: Path, args) -> Any:
-    read_table = getattr(fitting, "read_table", None)
-    if read_table is None:  # older engine builds kept it private
-        from fitting._intake import read_table
-    return read_table(path, max_bytes=int(args.size_limit_mb) * MIB, name=path.name)
+    return fitting.read_table(path, max_bytes=int(args.size_limit_mb) * MIB, name=path.name)
 
 
 def _select(table, args, *, weights=None, group=None):
