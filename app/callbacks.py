@@ -419,6 +419,19 @@ def _slug(text: str) -> str:
 # wiring
 
 
+# The precise fit, the predictions and the URL follow the degree once it has rested for
+# SETTLE_MS, so that a run of key presses or a drag keeps the server and the browser free
+# for the chart updates.
+SETTLE_MS = 200
+SETTLE_JS = """
+async function(value) {
+    const me = (window.__degreeSettle = (window.__degreeSettle || 0) + 1);
+    await new Promise(function (r) { setTimeout(r, %d); });
+    if (me !== window.__degreeSettle) { return window.dash_clientside.no_update; }
+    return value;
+}
+""" % SETTLE_MS
+
 IMAGE_JS = """
 function(fitPng, fitSvg, errPng, errSvg) {
     const t = (window.dash_clientside && window.dash_clientside.callback_context.triggered) || [];
@@ -527,6 +540,8 @@ def register(app, service: FitService) -> None:
         prevent_initial_call=True,
     )(degree_cb)
 
+    app.clientside_callback(SETTLE_JS, Output(ids.DEGREE_SETTLED, "data"), Input(ids.DEGREE, "value"))
+
     app.callback(
         Output(ids.STATS, "children"),
         Output(ids.EQUATION, "children"),
@@ -535,14 +550,14 @@ def register(app, service: FitService) -> None:
         Output(ids.MODEL_NOTE, "children"),
         Output(ids.URL, "search"),
         Input(ids.SPLIT_KEY, "data"),
-        Input(ids.DEGREE, "value"),
+        Input(ids.DEGREE_SETTLED, "data"),
     )(lambda key, degree: on_model(S, key, degree))
 
     app.callback(
         Output(ids.PREDICT_TABLE, "children"),
         Input(ids.PREDICT_INPUT, "value"),
         Input(ids.SPLIT_KEY, "data"),
-        Input(ids.DEGREE, "value"),
+        Input(ids.DEGREE_SETTLED, "data"),
     )(lambda text, key, degree: on_predict(S, text, key, degree))
 
     def export_cb(n_report, n_model, n_csv, key, degree, bands, text):
@@ -558,7 +573,7 @@ def register(app, service: FitService) -> None:
         Input(ids.MODEL_BUTTON, "n_clicks"),
         Input(ids.CSV_BUTTON, "n_clicks"),
         State(ids.SPLIT_KEY, "data"),
-        State(ids.DEGREE, "value"),
+        State(ids.DEGREE_SETTLED, "data"),
         State(ids.BANDS, "value"),
         State(ids.PREDICT_INPUT, "value"),
         prevent_initial_call=True,

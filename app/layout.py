@@ -238,6 +238,7 @@ def build_layout(dataset_store: dict, *, upload_limit_bytes: int, upload_max_siz
             dcc.Location(id=ids.URL, refresh=False),
             dcc.Store(id=ids.DATASET, data=dataset_store),
             dcc.Store(id=ids.SPLIT_KEY),
+            dcc.Store(id=ids.DEGREE_SETTLED),
             dcc.Store(id=ids.IMAGE_DONE),
             html.Header(
                 [
