@@ -295,9 +295,9 @@ def coefficient_table(model) -> html.Table:
         html.Tr(
             [
                 html.Td(r["term"]),
-                html.Td(_num(r["coefficient"], 10), className="num"),
+                html.Td(_num(r["coefficient"], 9), className="num"),
                 html.Td(_num(r["se"], 4), className="num"),
-                html.Td(f"{_num(r['ci_lo'], 7)} … {_num(r['ci_hi'], 7)}", className="num"),
+                html.Td(f"{_num(r['ci_lo'], 6)} … {_num(r['ci_hi'], 6)}", className="num"),
                 html.Td(r["unit"]),
             ]
         )

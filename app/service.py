@@ -517,8 +517,7 @@ class FitService:
         caption = (
             f"Degree {d} · {test_name} RMSE {_fmt(float(sw.test_rmse[i]))}"
             + (f" ± {_fmt(se, 2)}" if np.isfinite(se) else "")
-            + f" · R² train {_fmt(float(sw.train_r2[i]), 5)}, {test_name} {_fmt(float(sw.test_r2[i]), 5)}"
-            ,
+            + f" · R² train {_fmt(float(sw.train_r2[i]), 5)}, {test_name} {_fmt(float(sw.test_r2[i]), 5)}",
             f"Split: {view.split_label} · {view.rows_used:,} rows",
         )
         return DegreeView(

@@ -223,6 +223,9 @@ def test_a_header_with_markup_renders_as_text(page, tmp_path):
     assert page.evaluate("() => document.querySelectorAll('img[src=\"x\"]').length") == 0
     assert page.dialogs == []
     assert "<img src=x onerror=alert(1)>" in page.inner_text("#x-column")
+    # the model card follows: its table, built from the file's numbers, arrives as text too
+    page.wait_for_function("() => document.getElementById('coefficients').innerText.includes('x')")
+    assert page.inner_text("#equation").startswith("y = ")
     xtitle = page.evaluate("() => document.querySelector('#fit-chart .xtitle').textContent")
     assert xtitle == "<img src=x onerror=alert(1)>"
     shot(page, "07-markup-header")
@@ -235,6 +238,11 @@ def test_oversize_upload_shows_a_message(page, tmp_path):
     page.wait_for_function("() => document.getElementById('upload-notice').innerText.includes('upload limit')")
     assert "64 KiB" in page.inner_text("#upload-notice")
     assert "temperature" in chart_title(page, FIT)  # the previous data stay on screen
+    # far above the limit the upload box drops the file by itself; the page still says why
+    huge = tmp_path / "huge.csv"
+    huge.write_text("x,y\n" + "1,2\n" * 100_000)  # 400 KB, above the box's own max_size
+    upload(page, huge)
+    page.wait_for_function("() => document.getElementById('upload-size-warning').innerText.includes('was not sent')")
 
 
 def test_shared_url_restores_the_view(browser, server):
