@@ -214,7 +214,7 @@ def _cholesky_ld(g: np.ndarray) -> np.ndarray | None:
     return r
 
 
-def _polish_decimal(x, y, w, offset, scale, through_origin, c_ld, factor, gram, max_steps: int = 4):
+def _polish_decimal(x, y, w, offset, scale, through_origin, c_ld, factor, gram, contraction: float = 1.0, max_steps: int = 4):
     """Refinement steps with the residual and gradient in 50-digit decimals.
 
     Longdouble residuals carry rounding of about 1e-19 times |y|. When the
@@ -228,57 +228,54 @@ def _polish_decimal(x, y, w, offset, scale, through_origin, c_ld, factor, gram, 
     lists of Decimals, settled: bool).
     """
     D = decimal.Decimal
-    ctx = _POLISH_CTX
     p = c_ld.size
-    with decimal.localcontext(ctx):
-        off = D(float(offset))
-        sc = D(float(scale))
-        wv = [D(1)] * x.size if w is None else [D(float(v)) for v in w]
-        mom = [D(0)] * (2 * p - 1)
-        basis = []  # per row: (T_0..T_{p-1}, v or None, y, w)
-        for xi, yi, wi in zip(x.tolist(), y.tolist(), wv):
-            xd = D(xi)
-            t = (xd - off) / sc
-            tk = [D(1), t]
-            two_t = 2 * t
-            for _ in range(2, 2 * p - 1):
-                tk.append(two_t * tk[-1] - tk[-2])
-            v = xd / sc if through_origin else None
-            mw = wi if v is None else wi * v * v
-            for k in range(2 * p - 1):
-                mom[k] += mw * tk[k]
-            basis.append((tk[:p], v, D(yi), wi))
+    with decimal.localcontext(_POLISH_CTX):
+        # object arrays of Decimals: numpy runs the loops, Decimal does the arithmetic
+        xd = np.array([D(v) for v in x.tolist()], dtype=object)
+        yd = np.array([D(v) for v in y.tolist()], dtype=object)
+        wd = None if w is None else np.array([D(v) for v in w.tolist()], dtype=object)
+        t = (xd - D(float(offset))) / D(float(scale))
+        v = xd / D(float(scale)) if through_origin else None
+        mw = wd if v is None else (v * v if wd is None else wd * v * v)
+        rows = [np.full(x.size, D(1), dtype=object), t]
+        two_t = 2 * t
+        for _ in range(2, 2 * p - 1):
+            rows.append(two_t * rows[-1] - rows[-2])
+        mom = [r.sum() if mw is None else (r * mw).sum() for r in rows[: 2 * p - 1]]
+        rows = rows[:p]
         gram_dec = [[(mom[i + j] + mom[abs(i - j)]) / 2 for j in range(p)] for i in range(p)]
-        coef = [_basis.as_decimal(v) for v in c_ld]
+        coef = [_basis.as_decimal(c) for c in c_ld]
         settled = False
         rss_new = D(0)
+        prev = None
         for _ in range(max_steps):
-            grad = [D(0)] * p
-            rss = D(0)
-            for tk, v, yd, wi in basis:
-                f = D(0)
-                for ck, tv in zip(coef, tk):
-                    f += ck * tv
-                if v is not None:
-                    f *= v
-                r = yd - f
-                wr = wi * r
-                rss += wr * r
-                if v is not None:
-                    wr *= v
-                for k in range(p):
-                    grad[k] += tk[k] * wr
+            f = rows[0] * coef[0]
+            for k in range(1, p):
+                f = f + rows[k] * coef[k]
+            if v is not None:
+                f = f * v
+            r = yd - f
+            wr = r if wd is None else wd * r
+            rss = (wr * r).sum()
+            if v is not None:
+                wr = wr * v
+            grad = [(rk * wr).sum() for rk in rows]
             g_ld = np.array([LD(str(gv)) for gv in grad], dtype=LD)
             dc = _solve_rtr(factor, g_ld)
-            dcd = [_basis.as_decimal(v) for v in dc]
+            dcd = [_basis.as_decimal(c) for c in dc]
             coef = [ck + dk for ck, dk in zip(coef, dcd)]
             gd = sum((a * b for a, b in zip(dcd, grad)), D(0))
             quad = sum((dcd[i] * gram_dec[i][j] * dcd[j] for i in range(p) for j in range(p)), D(0))
             rss_new = rss - 2 * gd + quad
             size = max(abs(c) for c in coef)
-            if size == 0 or max(abs(d) for d in dcd) <= D("1e-30") * size:
+            step = max(abs(d) for d in dcd)
+            # stop when this step, or the predicted next one (contraction x step), is below 1e-25 relative
+            if size == 0 or step <= D("1e-25") * size or (contraction < 0.5 and D(contraction) * step <= D("1e-25") * size):
                 settled = True
                 break
+            if prev is not None and step > prev / 2:
+                break
+            prev = step
     if rss_new < 0:
         rss_new = D(0)
     return coef, rss_new, gram_dec, settled
@@ -652,7 +649,9 @@ def fit_polynomial(
     rss_ld = max(rss_ld, LD(0))
     coef_exact = gram_dec = rss_dec = None
     if n * ncols <= POLISH_LIMIT:
-        polished = _polish_decimal(x, y, w, offset, scale, through_origin, c_ld, factor, gram, max_steps=4 if settled else 12)
+        polished = _polish_decimal(
+            x, y, w, offset, scale, through_origin, c_ld, factor, gram, contraction=contraction, max_steps=4 if settled else 12
+        )
         if polished[3]:  # keep the decimal result only when it settled
             coef_exact, rss_dec, gram_dec, settled = polished
             rss_ld = LD(str(rss_dec))

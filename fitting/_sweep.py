@@ -18,6 +18,11 @@ to the highest at once). Everything else is done on these small factors:
 The results equal a plain refit on every (degree, fold) to rounding error;
 tests check this against scikit-learn's KFold and PredefinedSplit.
 
+BLAS runs single-threaded for the duration of ``sweep_degrees`` (see
+``_polyfit.single_thread_blas``): its LAPACK calls are tall-skinny or tiny, and
+multi-threaded BLAS on a loaded machine made a 10-fold sweep 30x slower.
+Callers of ``sweep_from_blocks`` and ``block_factor`` may do the same.
+
 Recommendation
 --------------
 By default the one-standard-error rule: the smallest degree whose mean test
