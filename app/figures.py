@@ -272,7 +272,7 @@ def residual_figure(view: SplitView, model: ModelView) -> go.Figure:
     layout = _base_layout(f"Residuals at degree {model.fit.degree}", plot_text(view.x_label), plot_text(f"residual{unit}"),
                           ("y − fitted value" + ("; a random sample of the points is shown." if model.residual_sampled else "."),
                            f"The fit used {model.fitted_rows}."))
-    layout["margin"] = dict(l=70, r=24, t=64, b=80)
+    layout["margin"] = dict(l=72, r=24, t=64, b=100)
     layout["shapes"] = [dict(type="line", xref="paper", x0=0, x1=1, yref="y", y0=0, y1=0,
                              line=dict(color="#7d868c", width=1.2, dash="dot"))]
     fig.update_layout(**layout)
