@@ -264,7 +264,8 @@ DEGREE_OUTPUTS = 6
 
 @guarded(DEGREE_OUTPUTS, 5, wrap=lambda m: html.Span(m, className="error"))
 def on_degree(service: FitService, drag_value, value, bands, key, triggered: str | None = None):
-    d = value if triggered == "value" or drag_value is None else drag_value
+    # a drag sends drag_value; key presses, releases and band switches go by value
+    d = drag_value if triggered == "drag_value" and drag_value is not None else value
     if d is None or not key:
         return (no_update,) * DEGREE_OUTPUTS
     ds, cols, split = from_key(key)
@@ -524,7 +525,7 @@ def register(app, service: FitService) -> None:
         prop = None
         if ctx.triggered:
             prop = ctx.triggered[0]["prop_id"].split(".")[-1]
-        return on_degree(S, drag_value, value, bands, key, triggered=prop if trig == ids.DEGREE else None)
+        return on_degree(S, drag_value, value, bands, key, triggered=prop if trig == ids.DEGREE else "value")
 
     app.callback(
         Output(ids.FIT_CHART, "figure", allow_duplicate=True),

@@ -89,6 +89,11 @@ def _list(a) -> list:
     return np.asarray(a, dtype=float).tolist()
 
 
+def _wire(a) -> np.ndarray:
+    """Curve values for a partial update: float32 is ample on screen and plotly ships it base64-packed."""
+    return np.asarray(a, dtype=np.float32)
+
+
 def fit_title(view: SplitView, degree: int) -> str:
     return plot_text(f"Degree {degree} fit: {view.y_label} against {view.x_label}")
 
@@ -169,11 +174,14 @@ def fit_degree_patch(view: SplitView, dv: DegreeView, bands=(CONFIDENCE,)) -> Pa
     """Partial update of the fit chart for a new degree: curve, bands, title, caption."""
     bands = set(bands or ())
     p = Patch()
-    p["data"][ids.FIT_TRACE_PRED_LO]["y"] = _list(dv.pred_lo)
-    p["data"][ids.FIT_TRACE_PRED_HI]["y"] = _list(dv.pred_hi)
-    p["data"][ids.FIT_TRACE_CONF_LO]["y"] = _list(dv.conf_lo)
-    p["data"][ids.FIT_TRACE_CONF_HI]["y"] = _list(dv.conf_hi)
-    p["data"][ids.FIT_TRACE_CURVE]["y"] = _list(dv.curve)
+    # a hidden band keeps its old values (plotly skips hidden traces); it is sent when shown
+    if PREDICTION in bands:
+        p["data"][ids.FIT_TRACE_PRED_LO]["y"] = _wire(dv.pred_lo)
+        p["data"][ids.FIT_TRACE_PRED_HI]["y"] = _wire(dv.pred_hi)
+    if CONFIDENCE in bands:
+        p["data"][ids.FIT_TRACE_CONF_LO]["y"] = _wire(dv.conf_lo)
+        p["data"][ids.FIT_TRACE_CONF_HI]["y"] = _wire(dv.conf_hi)
+    p["data"][ids.FIT_TRACE_CURVE]["y"] = _wire(dv.curve)
     p["data"][ids.FIT_TRACE_CURVE]["name"] = f"degree {dv.degree} fit"
     for i in (ids.FIT_TRACE_PRED_LO, ids.FIT_TRACE_PRED_HI):
         p["data"][i]["visible"] = PREDICTION in bands

@@ -2,9 +2,8 @@
 
 from __future__ import annotations
 
-import json
-
 import numpy as np
+import plotly.io.json
 import plotly.graph_objects as go
 
 from app import figures, ids
@@ -52,10 +51,13 @@ def test_degree_patch_touches_curve_bands_and_caption_but_not_the_points(sensor)
     assert ("data", ids.FIT_TRACE_TRAIN) not in touched and ("data", ids.FIT_TRACE_TEST) not in touched
     assert ("data", ids.FIT_TRACE_CURVE) in touched
     curve_op = next(op for op in ops if op["location"] == ["data", ids.FIT_TRACE_CURVE, "y"])
-    np.testing.assert_allclose(curve_op["params"]["value"], dv.curve)
+    np.testing.assert_allclose(curve_op["params"]["value"], dv.curve, rtol=1e-6)
     vis = {op["location"][1]: op["params"]["value"] for op in ops if op["location"][-1] == "visible"}
     assert vis[ids.FIT_TRACE_PRED_HI] is True and vis[ids.FIT_TRACE_CONF_HI] is False
-    assert len(json.dumps(patch.to_plotly_json())) < 60_000  # a few hundred points, not the data
+    # the hidden confidence band is not resent; the shown prediction band is
+    assert ("data", ids.FIT_TRACE_CONF_HI) not in {tuple(op["location"][:2]) for op in ops if op["location"][-1] == "y"}
+    assert ("data", ids.FIT_TRACE_PRED_HI) in {tuple(op["location"][:2]) for op in ops if op["location"][-1] == "y"}
+    assert len(plotly.io.json.to_json_plotly(patch.to_plotly_json())) < 30_000  # a few hundred points, not the data
 
 
 def test_error_chart_marks_current_and_recommended_degree(sensor):
