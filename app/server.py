@@ -55,6 +55,9 @@ __all__ = [
 
 DEFAULT_UPLOAD_LIMIT_BYTES = 128 * 1024 * 1024
 DEFAULT_THREADS = 8
+# waitress accepts 100 open connections by default; a browser tab keeps up to 6, so 100 is about 16 tabs.
+# Past the limit new connections wait unanswered. 512 stays well under the usual 1024 open-file limit.
+DEFAULT_CONNECTION_LIMIT = 512
 _LOOPBACK_NAMES = ("localhost", "127.0.0.1", "[::1]")
 _SECURITY_HEADERS = (
     ("X-Content-Type-Options", "nosniff"),
@@ -299,8 +302,12 @@ def make_server(
     token: str | None = "auto",
     allowed_hosts: Iterable[str] = (),
     max_request_body_size: int | None = None,
+    connection_limit: int = DEFAULT_CONNECTION_LIMIT,
 ) -> RunningServer:
     """Bind a waitress server for ``dash_app`` (port 0 picks a free port).
+
+    ``connection_limit`` caps open connections (idle keep-alive ones count; waitress
+    closes those after 120 s); more wait unanswered until one closes.
 
     ``token="auto"`` makes a token for non-loopback binds and none for loopback;
     ``None`` turns it off; any other string is used as the token.
@@ -313,7 +320,7 @@ def make_server(
     def late(environ, start_response):  # the guard needs the port, known only after binding
         return holder["app"](environ, start_response)
 
-    kw: dict[str, Any] = {"threads": int(threads), "ident": "degreescope"}
+    kw: dict[str, Any] = {"threads": int(threads), "ident": "degreescope", "connection_limit": int(connection_limit)}
     if max_request_body_size is not None:
         kw["max_request_body_size"] = int(max_request_body_size)
     srv = create_server(late, host=host, port=int(port), **kw)
