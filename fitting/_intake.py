@@ -44,7 +44,9 @@ The rules, in the order they are applied
                 data, not a comment.
     A data row whose fields are all empty is treated as blank too.
 6.  Delimiter: one of ``,`` ``;`` tab ``|``, chosen on a sample (the first 64 KiB, at
-    most 500 lines, enlarged when it holds fewer than 20 lines or no data). For each
+    most 500 lines; grown up to 1 MiB when it holds fewer than 20 lines, and up to
+    20,000 lines when it holds no table). At most ``MAX_COLUMNS`` (10,000) columns are
+    taken; a wider file raises IntakeError. For each
     candidate the modal field count k must be at least 2; the winner has the largest
     (number-like cells - text cells) over the sample lines with k fields; ties go to
     more lines with k fields, then to the order ``,`` ``;`` tab ``|``.
@@ -141,6 +143,7 @@ from ._errors import ColumnError, FileTooLargeError, FitError, IntakeError
 
 __all__ = [
     "DEFAULT_MAX_BYTES",
+    "MAX_COLUMNS",
     "DropInfo",
     "IntakeReport",
     "Selection",
@@ -153,6 +156,10 @@ DEFAULT_MAX_BYTES = 512 * 1024 * 1024
 
 _SAMPLE_CHARS = 64 * 1024
 _SAMPLE_LINES = 500
+_SAMPLE_MAX_CHARS = 1024 * 1024
+_SAMPLE_MAX_CELLS = 100_000
+MAX_COLUMNS = 10_000
+"""The most columns ``read_table`` takes; wider files raise IntakeError."""
 _MIN_SAMPLE_LINES = 20
 _RUN = 3
 _FIRST_LINES = 5
@@ -693,12 +700,14 @@ def _cell_kind(cell: str) -> str:
 
 
 def _sample_lines(text: str, chars: int) -> list[str]:
+    """The first lines of the text: 64 KiB and at most 500 lines, grown (up to 1 MiB)
+    until it holds 20 complete lines."""
     while True:
         complete = chars >= len(text)
         lines = text[:chars].split("\n")
-        if not complete:
+        if not complete and len(lines) > 1:
             lines.pop()
-        if complete or len(lines) >= _MIN_SAMPLE_LINES:
+        if complete or len(lines) >= _MIN_SAMPLE_LINES or chars >= _SAMPLE_MAX_CHARS:
             return lines[:_SAMPLE_LINES] if chars == _SAMPLE_CHARS else lines
         chars *= 4
 
@@ -714,7 +723,8 @@ def _layout(text: str, display: str) -> _Layout:
     except IntakeError:
         if len(lines) >= min(text.count("\n") + 1, _RETRY_LINES):
             raise
-    wider = text.split("\n", _RETRY_LINES)[:_RETRY_LINES]
+    end = _offset_of_line(text, _RETRY_LINES + 1)
+    wider = text[:end].split("\n")[:_RETRY_LINES]
     return _layout_from(wider, display)
 
 
@@ -740,11 +750,12 @@ def _layout_from(lines: list[str], display: str) -> _Layout:
         k = max(counts.items(), key=lambda kv: (kv[1], kv[0]))[0]
         if k < 2:
             continue
-        score = 0
+        score = budget = 0
         for _, cells in recs:
-            if len(cells) == k:
+            if len(cells) == k and budget < _SAMPLE_MAX_CELLS:
                 kinds = [_cell_kind(c) for c in cells]
                 score += kinds.count("num") - kinds.count("text")
+                budget += k
         candidates.append(((score, counts[k], -order), d, k, recs))
     if not candidates:
         any_line = [
@@ -761,6 +772,11 @@ def _layout_from(lines: list[str], display: str) -> _Layout:
             f"separate columns."
         )
     _, d, k, recs = max(candidates, key=lambda c: c[0])
+    if k > MAX_COLUMNS:
+        raise IntakeError(
+            f"'{display}' has {k:,} columns, more than the {MAX_COLUMNS:,} this reader takes; "
+            f"export only the columns you need (x, y, and any weights or group)."
+        )
 
     def fit(cells: list[str]) -> list[str] | None:
         return cells[:k] if len(cells) >= k else None
@@ -857,7 +873,8 @@ def _layout_from(lines: list[str], display: str) -> _Layout:
         data_start = recs[start][0] + 1
         skipped_until = data_start - 1
     skipped = [i + 1 for i in range(skipped_until) if stripped[i] and i + 1 != from_comment]
-    decimal = _decide_decimal(d, [row[j] for row in data_rows for j in numeric if j < len(row)])
+    vote_cells = [row[j] for row in data_rows for j in numeric if j < len(row)]
+    decimal = _decide_decimal(d, vote_cells[:_SAMPLE_MAX_CELLS])
     return _Layout(
         delimiter=d,
         k=k,
@@ -941,10 +958,11 @@ class _Columns:
 def _parse_fast(region: str, layout: _Layout) -> _Columns | None:
     """Arrow's CSV reader straight to float64; None when the file is not that simple."""
     k = layout.k
+    region = region.rstrip("\n")  # blank lines at the very end change no line number
     if not region:
         return None
     body = region.encode("utf-8")
-    n_lines = body.count(b"\n") + (0 if body.endswith(b"\n") else 1)
+    n_lines = body.count(b"\n") + 1
     names = [f"c{j}" for j in range(k)]
     try:
         tbl = pacsv.read_csv(
@@ -969,6 +987,10 @@ def _parse_fast(region: str, layout: _Layout) -> _Columns | None:
         if v.dtype != np.float64 or not np.any(~np.isnan(v)):
             return None
         values.append(np.ascontiguousarray(v))
+    # A row with no value at all may be a delimiter-only line (",,"), which rule 5 calls
+    # blank, or a row of markers ("NA,NA"), which is data: the general path tells them apart.
+    if np.logical_and.reduce([np.isnan(v) for v in values]).any():
+        return None
     lines = np.arange(layout.data_start, layout.data_start + n_lines, dtype=np.int64)
     return _Columns(
         values=values,
@@ -1350,14 +1372,15 @@ def _finish(display: str, encoding: str, layout: _Layout, cols: _Columns) -> Tab
             units[final] = unit
         if cols.numeric[j]:
             numeric_names.append(final)
-            column_data[final] = pd.Series(cols.values[j], dtype=np.float64)
+            column_data[final] = cols.values[j]
         else:
             t = cols.texts[j]
             t = pc.if_else(pc.equal(t, ""), pa.scalar(None, t.type), t)
             column_data[final] = pd.Series(t.to_numpy(zero_copy_only=False), dtype="str")
         for cn in cols.column_notes[j]:
             notes.append(f"Column '{final}': {cn}")
-    text_names = [n for n in names if n not in numeric_names]
+    numeric_set = set(numeric_names)
+    text_names = [n for n in names if n not in numeric_set]
     if text_names and len(numeric_names) >= 2:
         notes.append(
             f"{_plural(len(text_names), 'column')} hold{'s' if len(text_names) == 1 else ''} text "
@@ -1378,7 +1401,18 @@ def _finish(display: str, encoding: str, layout: _Layout, cols: _Columns) -> Tab
             f"(or check that the delimiter and decimal mark are consistent)."
         )
 
-    frame = pd.DataFrame(column_data, index=pd.RangeIndex(len(cols.lines)))
+    # One float64 block for the numeric columns, then the text columns, in file order.
+    n_rows = len(cols.lines)
+    numeric_frame = pd.DataFrame(
+        np.column_stack([column_data[c] for c in numeric_names]) if n_rows else np.empty((0, len(numeric_names))),
+        columns=pd.Index(numeric_names),
+        index=pd.RangeIndex(n_rows),
+    )
+    if text_names:
+        text_frame = pd.DataFrame({c: column_data[c] for c in text_names}, index=pd.RangeIndex(n_rows))
+        frame = pd.concat([numeric_frame, text_frame], axis=1)[names]
+    else:
+        frame = numeric_frame
     thousands = None
     if cols.grouping:
         mark, count = cols.grouping.most_common(1)[0]

@@ -527,3 +527,20 @@ def test_fast_and_general_paths_agree_on_odd_tokens(token):
     fast, general = read_table(data), _general(data)
     pd.testing.assert_frame_equal(fast.frame, general.frame, check_exact=True)
     assert fast.report == general.report
+
+
+def test_delimiter_only_line_is_blank_but_a_row_of_markers_is_data():
+    # Found by the fuzz test: Arrow reads "," as a row of nulls.
+    for reader in (read_table, _general):
+        assert reader(b"x,y\n0.0,0.0\n1,2\n,\n").report.rows_read == 2
+        t = reader(b"x,y\n0.0,0.0\n1,2\nNA,NA\n")
+        assert t.report.rows_read == 3
+        assert t.select().dropped["missing or non-numeric x"] == DropInfo(1, [4])
+
+
+def test_column_limit_is_a_clear_error():
+    wide = (",".join(["1.5"] * (_intake.MAX_COLUMNS + 1)) + "\n").encode() * 3
+    with pytest.raises(IntakeError, match="10,001 columns, more than the 10,000"):
+        read_table(wide)
+    ok = (",".join(["1.5"] * 50) + "\n").encode() + (",".join(str(i) for i in range(50)) + "\n").encode()
+    assert read_table(ok + ok).frame.shape == (4, 50)
