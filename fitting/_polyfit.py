@@ -6,26 +6,25 @@ How the fit is computed
    T_0(t) .. T_d(t) (times z = x / scale for a fit through the origin). The
    basis rows are built once, in extended precision (np.longdouble, 80-bit on
    x86-64), and reused by every later step. Weights w multiply squared residuals.
-2. The Gram matrix A^T W A comes from 2d + 1 Chebyshev moments
+2. A Householder QR of the weighted [A | y] in double precision (LAPACK
+   dgeqrf, the only O(n d^2) step; Q is never formed) gives the starting
+   solution and the condition number. The normal equations are never solved.
+3. The Gram matrix A^T W A comes from 2d + 1 Chebyshev moments
    (T_i T_j = (T_{i+j} + T_{|i-j|}) / 2; the moments above d reuse the stored
-   rows through T_{d+j} = 2 T_d T_j - T_{d-j}), O(n d). Its Cholesky factor R,
-   in longdouble, gives a first solution from the normal equations.
-3. Iterative refinement with residuals in longdouble: c <- c + (R^T R)^-1 A^T W r.
+   rows through T_{d+j} = 2 T_d T_j - T_{d-j}), O(n d), in longdouble. Its
+   Cholesky factor R (or the QR's R when it has none) preconditions the
+   iterative refinement, with residuals in longdouble:
+   c <- c + (R^T R)^-1 A^T W r.
    Each step is two O(n d) passes; the loop stops as soon as the predicted
    error of the next step is below rounding (one step on a well-conditioned
    design) or when it reaches the rounding floor. The RSS at the final
    coefficients follows from the last residual without another pass.
-4. When the mapped design is ill-conditioned (condition number above
-   ``FAST_CONDITION_LIMIT``), the first solution comes instead from a
-   Householder QR of [A | y] in double precision (LAPACK dgeqrf, O(n d^2)),
-   which does not square the condition number; the corrections still use the
-   longdouble factor when it exists.
-5. Small fits (rows x coefficients <= ``POLISH_LIMIT``) get further refinement
+4. Small fits (rows x coefficients <= ``POLISH_LIMIT``) get further refinement
    steps whose residual, gradient and Gram matrix are computed in 50-digit
    decimals, and a decimal refinement of the inverse Gram matrix. This removes
    the longdouble rounding of large residuals, which alone would cap heavily
    noisy sets such as NIST's Wampler5 at about 11.5 digits.
-6. Chebyshev coefficients and their covariance are converted to the power basis
+5. Chebyshev coefficients and their covariance are converted to the power basis
    of the original x in 80-digit decimals and rounded once.
 
 This reaches at least 13 correct digits (LRE) on the NIST StRD polynomial sets
@@ -182,10 +181,6 @@ def condition_of(r: np.ndarray) -> float:
 
 
 _EPS_LD = float(np.finfo(LD).eps)
-# Above this condition number of the mapped design, the factor comes from a
-# double-precision Householder QR instead of a Cholesky factor of the
-# extended-precision Gram matrix (which squares the condition number).
-FAST_CONDITION_LIMIT = 1e6
 # Fits with at most this many (rows x coefficients) get a last refinement step
 # whose residual and gradient are computed in 50-digit decimals.
 POLISH_LIMIT = 10_000
@@ -579,36 +574,35 @@ def fit_polynomial(
     m_ld = _times(u_ld, v_ld)  # moment weight w * v**2
     gram = _gram_from_moments(_basis.chebyshev_moments_from_rows(rows_ld, 2 * ncols - 1, m_ld), ncols)
     r_ld = _cholesky_ld(gram)
-    cond = condition_of(r_ld.astype(np.float64)) if r_ld is not None else float("inf")
-    if r_ld is not None and cond <= FAST_CONDITION_LIMIT:
+
+    # --- Householder QR of the weighted [A | y] in double precision ----------
+    # The only O(n d^2) step. It gives the starting solution and the condition
+    # number without squaring it; the normal equations are never solved.
+    sw = None if w is None else np.sqrt(w)
+    rows = np.empty((ncols + 1, n))
+    rows[:ncols] = rows_ld
+    if through_origin:
+        rows[:ncols] *= x / scale
+    rows[ncols] = y
+    if sw is not None:
+        rows *= sw
+    with single_thread_blas():
+        r_aug = qr_r(rows.T)
+    del rows
+    r_qr = r_aug[:ncols, :ncols]
+    cond = condition_of(r_qr)
+    coef = np.zeros(ncols, dtype=LD)
+    if np.isfinite(cond) and cond <= 1.0 / (max(n, ncols) * np.finfo(np.float64).eps):
+        coef = solve_triangular(r_qr, r_aug[:ncols, ncols]).astype(LD)
+    # Preconditioner for the corrections: the extended-precision factor of the
+    # Gram matrix, when it exists, contracts the error by cond² eps_ld per step
+    # instead of cond² eps with the double-precision R.
+    if r_ld is not None:
         factor = r_ld
-        coef = _solve_rtr(factor, np.einsum("jn,n->j", rows_ld, y_ld if u_ld is None else u_ld * y_ld))
         contraction = cond * cond * _EPS_LD * 4 * ncols
     else:
-        # Ill-conditioned design: Householder QR of the weighted [A | y] in double precision
-        # (O(n d^2)) gives a factor that does not square the condition number.
-        sw = None if w is None else np.sqrt(w)
-        rows = np.empty((ncols + 1, n))
-        rows[:ncols] = rows_ld
-        if through_origin:
-            rows[:ncols] *= x / scale
-        rows[ncols] = y
-        if sw is not None:
-            rows *= sw
-        with single_thread_blas():
-            r_aug = qr_r(rows.T)
-        r_qr = r_aug[:ncols, :ncols]
-        cond = condition_of(r_qr)
-        if np.isfinite(cond) and cond <= 1.0 / (max(n, ncols) * np.finfo(np.float64).eps):
-            coef = solve_triangular(r_qr, r_aug[:ncols, ncols]).astype(LD)
-        # The QR solution is the better start; for the corrections, the extended-precision
-        # Cholesky factor (when it exists) contracts the error by cond² eps_ld instead of cond² eps.
-        if r_ld is not None:
-            factor = r_ld
-            contraction = cond * cond * _EPS_LD * 4 * ncols
-        else:
-            factor = r_qr
-            contraction = cond * cond * np.finfo(np.float64).eps * 4 * ncols
+        factor = r_qr
+        contraction = cond * cond * np.finfo(np.float64).eps * 4 * ncols
     if not np.isfinite(cond) or cond > 1.0 / (max(n, ncols) * np.finfo(np.float64).eps):
         msg = (
             f"The design at degree {degree} is numerically rank deficient (condition number {cond:.3g}); "
