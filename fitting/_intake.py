@@ -484,6 +484,12 @@ def _read(source, *, max_bytes: int, name: str | None, fast: bool) -> Table:
     data, display = _load(source, max_bytes, name)
     try:
         return _parse(data, display, fast=fast)
+    except _QuoteError as exc:
+        raise IntakeError(
+            f"'{display}' has a quote character (\") on line {exc.line} that opens a field which "
+            f"never closes, so the rest of the file would be one cell; remove the stray quote "
+            f"or close it."
+        ) from None
     except (UnicodeError, csv.Error, pa.ArrowException, pd.errors.ParserError) as exc:
         raise IntakeError(
             f"'{display}' could not be read as a table ({type(exc).__name__}: {exc}); "
@@ -532,8 +538,8 @@ def _load(source, max_bytes: int, name: str | None) -> tuple[bytes, str]:
 
 def _too_large(display: str, size: int, limit: int) -> FileTooLargeError:
     err = FileTooLargeError(
-        f"'{display}' is {_size_text(size)}, over the {_size_text(limit)} size limit; "
-        f"read a smaller file or raise the limit (max_bytes) to at least {_size_text(size)}."
+        f"'{display}' is {_size_text(size)} ({size:,} bytes), over the {_size_text(limit)} size "
+        f"limit; split the file, or raise the limit with max_bytes to at least {size:,} bytes."
     )
     err.size_bytes = size
     err.limit_bytes = limit
@@ -1200,12 +1206,23 @@ def _tokens_plain(kept, kept_numbers: np.ndarray, d: str, k: int):
     return cols, counts, kept_numbers, extra
 
 
+class _QuoteError(Exception):
+    """A quoted field that never closes (or outgrows the csv module's field limit)."""
+
+    def __init__(self, line: int):
+        super().__init__(line)
+        self.line = line
+
+
 def _tokens_quoted(kept, kept_numbers: np.ndarray, d: str, k: int):
     """Tokenise with Python's csv module (C code) when the text holds quotes."""
     items = kept.to_pylist()
     opts = dict(delimiter=d, quotechar='"', doublequote=True, skipinitialspace=True, strict=False)
     multi = None
-    records = list(csv.reader(items, **opts))
+    try:
+        records = list(csv.reader(items, **opts))
+    except csv.Error:
+        records = []  # find the line in the tracking pass below
     if len(records) == len(items):
         numbers = kept_numbers
     else:
@@ -1213,7 +1230,13 @@ def _tokens_quoted(kept, kept_numbers: np.ndarray, d: str, k: int):
         records, starts = [], []
         prev = 0
         n_multi, first_multi = 0, 0
-        for rec in reader:
+        while True:
+            try:
+                rec = next(reader)
+            except StopIteration:
+                break
+            except csv.Error:
+                raise _QuoteError(int(kept_numbers[prev])) from None
             records.append(rec)
             starts.append(prev)
             span = reader.line_num - prev
@@ -1388,9 +1411,10 @@ def _finish(display: str, encoding: str, layout: _Layout, cols: _Columns) -> Tab
         )
 
     if cols.rows_read == 0:
+        where = f"a header line (line {layout.header_line}) but" if layout.header_line else ""
         raise IntakeError(
-            f"'{display}' has a header line (line {layout.header_line}) but no data rows; add rows "
-            f"of numbers below the header, or choose another file."
+            f"'{display}' has {where} no data rows; add rows of numbers below the header, or "
+            f"choose another file."
         )
     if len(numeric_names) < 2:
         found = (

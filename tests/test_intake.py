@@ -544,3 +544,15 @@ def test_column_limit_is_a_clear_error():
         read_table(wide)
     ok = (",".join(["1.5"] * 50) + "\n").encode() + (",".join(str(i) for i in range(50)) + "\n").encode()
     assert read_table(ok + ok).frame.shape == (4, 50)
+
+
+def test_unclosed_quote_names_its_line():
+    body = b"x,y,c\n" + b"1,2,ok\n" * 10 + b'3,4,"never closed\n' + b"5,6,ok\n" * 30000
+    with pytest.raises(IntakeError) as info:
+        read_table(body, name="log.csv")
+    assert "on line 12 that opens a field which never closes" in str(info.value)
+    # A short stray quote just joins lines into one row, and a note says so.
+    t = read_table(b'x,y,c\n1,2,ok\n3,4,"oops\n5,6,ok\n7,8,ok\n')
+    assert any("run over several lines" in n for n in t.report.notes)
+    assert t.report.rows_read == 2  # line 3 opens a quote that swallows lines 4 and 5
+    assert t.line_numbers.tolist() == [2, 3]
