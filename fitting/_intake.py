@@ -1404,10 +1404,16 @@ def _finish(display: str, encoding: str, layout: _Layout, cols: _Columns) -> Tab
             notes.append(f"Column '{final}': {cn}")
     numeric_set = set(numeric_names)
     text_names = [n for n in names if n not in numeric_set]
+    time_names = [n for n in text_names if _looks_like_time(column_data[n])]
     if text_names and len(numeric_names) >= 2:
         notes.append(
             f"{_plural(len(text_names), 'column')} hold{'s' if len(text_names) == 1 else ''} text "
             f"and can serve as a group: {', '.join(repr(n) for n in text_names)}."
+        )
+    for n in time_names:
+        notes.append(
+            f"Column '{n}' holds dates or times, which are kept as text; to fit against time, "
+            f"export it as elapsed time in a number column."
         )
 
     if cols.rows_read == 0:
@@ -1420,6 +1426,12 @@ def _finish(display: str, encoding: str, layout: _Layout, cols: _Columns) -> Tab
         found = (
             f"only one numeric column ({numeric_names[0]!r})" if numeric_names else "no numeric columns"
         )
+        if time_names:
+            raise IntakeError(
+                f"'{display}' has {found}, and '{time_names[0]}' holds dates or times, which are "
+                f"not read as numbers; export the time as elapsed seconds (or another number) "
+                f"and load the file again."
+            )
         raise IntakeError(
             f"'{display}' has {found}; a curve needs two, so add an x and a y column of numbers "
             f"(or check that the delimiter and decimal mark are consistent)."
@@ -1456,6 +1468,22 @@ def _finish(display: str, encoding: str, layout: _Layout, cols: _Columns) -> Tab
         notes=notes,
     )
     return Table(frame=frame, report=report, _line_numbers=np.asarray(cols.lines, dtype=np.int64))
+
+
+_TIME_LIKE = (
+    "^(?:\\d{4}-\\d{1,2}-\\d{1,2}(?:[ T]\\d{1,2}:\\d{2}(?::\\d{2}(?:[.,]\\d+)?)?)?"
+    "|\\d{1,2}[./]\\d{1,2}[./]\\d{2,4}(?: \\d{1,2}:\\d{2}(?::\\d{2})?)?"
+    "|\\d{1,2}:\\d{2}(?::\\d{2}(?:[.,]\\d+)?)?)(?:Z|[+-]\\d{2}:?\\d{2})?$"
+)
+
+
+def _looks_like_time(series: pd.Series) -> bool:
+    """True when at least 80 % of the non-empty cells are dates or clock times."""
+    arr = pa.array(series.dropna().to_numpy(dtype=object), pa.large_string())
+    if len(arr) == 0:
+        return False
+    hits = pc.sum(pc.cast(pc.match_substring_regex(arr, _TIME_LIKE), pa.int64())).as_py() or 0
+    return hits >= 0.8 * len(arr)
 
 
 def _unit_of(name: str) -> str | None:

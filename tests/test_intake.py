@@ -556,3 +556,13 @@ def test_unclosed_quote_names_its_line():
     assert any("run over several lines" in n for n in t.report.notes)
     assert t.report.rows_read == 2  # line 3 opens a quote that swallows lines 4 and 5
     assert t.line_numbers.tolist() == [2, 3]
+
+
+def test_date_and_time_columns_get_a_hint():
+    with pytest.raises(IntakeError, match="'timestamp' holds dates or times"):
+        read_table(b"timestamp,value\n2026-01-01 10:00,1.5\n2026-01-01 10:05,1.7\n2026-01-01T10:10:00Z,1.9\n")
+    t = read_table(b"clock,a,b\n10:00:01,1,2\n10:00:02,2,3\n10:00:03,3,5\n")
+    assert t.report.numeric_columns == ["a", "b"]
+    assert any("'clock' holds dates or times" in n for n in t.report.notes)
+    t = read_table(b"site,a,b\nNorth,1,2\nSouth,2,3\n")
+    assert not any("dates or times" in n for n in t.report.notes)
