@@ -38,12 +38,11 @@ from dataclasses import dataclass, field
 from typing import Any, Iterable
 
 import numpy as np
-from scipy import stats
 from scipy.linalg import solve_triangular
 
 from . import _basis
 from ._errors import FitError
-from ._polyfit import condition_of, qr_r, single_thread_blas, validate_xyw
+from ._polyfit import condition_of, qr_r, t_quantile, single_thread_blas, validate_xyw
 
 __all__ = ["DegreeSweep", "sweep_degrees", "Block", "Split", "sweep_from_blocks", "block_factor"]
 
@@ -186,7 +185,7 @@ class DegreeSweep:
             se = np.sqrt(se**2 + sd**2)
         elif kind != "confidence":
             raise FitError(f'Interval kind must be "confidence" or "prediction", not {kind!r}.')
-        q = stats.t.ppf(0.5 + float(level) / 2.0, dof)
+        q = t_quantile(level, dof)
         return yhat - q * se, yhat + q * se
 
     def warnings_for(self, degree: int) -> tuple[str, ...]:
