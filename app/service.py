@@ -35,7 +35,7 @@ from pathlib import Path
 from typing import Any, Callable
 
 import numpy as np
-from scipy import stats
+from scipy.special import stdtrit
 
 import fitting
 from fitting import DegreescopeError, FitError
@@ -557,7 +557,7 @@ class FitService:
             x_unit=sel.x_unit,
             y_unit=sel.y_unit,
         )
-        q = float(stats.t.ppf(0.975, fit.dof)) if fit.dof > 0 else float("nan")
+        q = float(stdtrit(fit.dof, 0.975)) if fit.dof > 0 else float("nan")  # Student t quantile
         rows = []
         for k, (c, se) in enumerate(zip(fit.coefficients, fit.standard_errors)):
             unit = _coef_unit(view.x_unit, view.y_unit, k)
