@@ -87,7 +87,7 @@ The rules, in the order they are applied
     fields than the header is truncated (a note counts those whose extra fields are
     not empty); a row with fewer is padded with empty fields (noted).
 12. Rows removed at intake (``IntakeReport.dropped``), first match wins:
-      "repeated header" - the cells equal the header names;
+      "repeated header" - the trimmed cells equal the trimmed header names;
       "summary row"     - the first non-empty cell starts with a summary word: mean,
                           average, avg, total, subtotal, sum, std, stdev, std dev,
                           standard deviation, sd, min, minimum, max, maximum, median,
@@ -1081,8 +1081,7 @@ def _parse_general(region: str, layout: _Layout) -> _Columns:
     missing = [p[2] for p in parsed]
     text_cell = [~v & ~m for v, m in zip(valid, missing)]
 
-    # Row kinds removed at intake (rule 12). Each needs a text cell in the row (a
-    # header name that is a number or a marker aside), so only those rows are examined.
+    # Row kinds removed at intake (rule 12), examined only on the rows that can match.
     summary = np.zeros(n, dtype=bool)
     note = np.zeros(n, dtype=bool)
     repeated = np.zeros(n, dtype=bool)
@@ -1091,24 +1090,29 @@ def _parse_general(region: str, layout: _Layout) -> _Columns:
         any_text = np.logical_or.reduce(text_cell)
     else:
         any_number = any_text = np.zeros(0, dtype=bool)
-    heads = None
-    if layout.header_names is not None and any(h.strip() for h in layout.header_names):
-        heads = [" ".join(h.split()) for h in layout.header_names]
-    cand = any_text if heads is None or any(_cell_kind(h) == "text" for h in heads) else np.ones(n, dtype=bool)
-    idx = np.nonzero(cand)[0]
-    if idx.size:
-        take = pa.array(idx)
-        sub_cols = [c.take(take) for c in trimmed_cols]
-        sub_empty = [e[idx] for e in empty]
-        first = pc.coalesce(
-            *[pc.if_else(pa.array(e), pa.scalar(None, c.type), c) for e, c in zip(sub_empty, sub_cols)]
-        )
-        summary[idx] = _np_bool(pc.match_substring_regex(first, _SUMMARY))
-        note[idx] = _np_bool(pc.match_substring_regex(first, _NOTE))
-        if heads is not None:
-            repeated[idx] = np.logical_and.reduce(
-                [_np_bool(pc.equal(_collapse(c), h)) for c, h in zip(sub_cols, heads)]
+    if n:
+        # Summary and note words sit in the first non-empty cell, which must be text.
+        nonempty = ~np.column_stack(empty)
+        first_j = nonempty.argmax(axis=1)
+        first_text = np.column_stack(text_cell)[np.arange(n), first_j]
+        idx = np.nonzero(first_text)[0]
+        if idx.size:
+            take = pa.array(idx)
+            sub_empty = [e[idx] for e in empty]
+            first = pc.coalesce(
+                *[pc.if_else(pa.array(e), pa.scalar(None, c.type), c.take(take)) for e, c in zip(sub_empty, trimmed_cols)]
             )
+            summary[idx] = _np_bool(pc.match_substring_regex(first, _SUMMARY))
+            note[idx] = _np_bool(pc.match_substring_regex(first, _NOTE))
+        heads = None if layout.header_names is None else [h.strip() for h in layout.header_names]
+        if heads is not None and any(heads):
+            j0 = next(j for j, h in enumerate(heads) if h)
+            idx = np.nonzero(_np_bool(pc.equal(trimmed_cols[j0], heads[j0])))[0]
+            if idx.size:
+                take = pa.array(idx)
+                repeated[idx] = np.logical_and.reduce(
+                    [_np_bool(pc.equal(c.take(take), h)) for c, h in zip(trimmed_cols, heads)]
+                )
     text_row = ~any_number & any_text
     dropped: dict[str, DropInfo] = {}
     taken = np.zeros(n, dtype=bool)
@@ -1184,10 +1188,6 @@ def _parse_general(region: str, layout: _Layout) -> _Columns:
         column_notes=column_notes,
         grouping=grouping,
     )
-
-
-def _collapse(arr):
-    return pc.replace_substring_regex(arr, "[" + _WS + "\n]+", " ")
 
 
 def _tokens_plain(kept, kept_numbers: np.ndarray, d: str, k: int):
@@ -1372,6 +1372,7 @@ def _finish(display: str, encoding: str, layout: _Layout, cols: _Columns) -> Tab
     units: dict[str, str] = {}
     seen: set[str] = set()
     column_data = {}
+    text_arrays = {}
     numeric_names = []
     for j in kept_idx:
         base = " ".join(raw[j].split())
@@ -1399,12 +1400,13 @@ def _finish(display: str, encoding: str, layout: _Layout, cols: _Columns) -> Tab
         else:
             t = cols.texts[j]
             t = pc.if_else(pc.equal(t, ""), pa.scalar(None, t.type), t)
-            column_data[final] = pd.Series(t.to_numpy(zero_copy_only=False), dtype="str")
+            text_arrays[final] = t
+            column_data[final] = pd.Series(pd.array(t, dtype="str"))
         for cn in cols.column_notes[j]:
             notes.append(f"Column '{final}': {cn}")
     numeric_set = set(numeric_names)
     text_names = [n for n in names if n not in numeric_set]
-    time_names = [n for n in text_names if _looks_like_time(column_data[n])]
+    time_names = [n for n in text_names if _looks_like_time(text_arrays[n])]
     if text_names and len(numeric_names) >= 2:
         notes.append(
             f"{_plural(len(text_names), 'column')} hold{'s' if len(text_names) == 1 else ''} text "
@@ -1477,9 +1479,9 @@ _TIME_LIKE = (
 )
 
 
-def _looks_like_time(series: pd.Series) -> bool:
-    """True when at least 80 % of the non-empty cells are dates or clock times."""
-    arr = pa.array(series.dropna().to_numpy(dtype=object), pa.large_string())
+def _looks_like_time(arr) -> bool:
+    """True when at least 80 % of the first 10,000 non-empty cells are dates or clock times."""
+    arr = pc.drop_null(arr).slice(0, 10_000)
     if len(arr) == 0:
         return False
     hits = pc.sum(pc.cast(pc.match_substring_regex(arr, _TIME_LIKE), pa.int64())).as_py() or 0
