@@ -45,11 +45,11 @@ The rules, in the order they are applied
     A data row whose fields are all empty is treated as blank too.
 6.  Delimiter: one of ``,`` ``;`` tab ``|``, chosen on a sample (the first 64 KiB, at
     most 500 lines; grown up to 1 MiB when it holds fewer than 20 lines, and up to
-    20,000 lines when it holds no table). At most ``MAX_COLUMNS`` (10,000) columns are
-    taken; a wider file raises IntakeError. For each
-    candidate the modal field count k must be at least 2; the winner has the largest
-    (number-like cells - text cells) over the sample lines with k fields; ties go to
-    more lines with k fields, then to the order ``,`` ``;`` tab ``|``.
+    20,000 lines when it holds no table). For each candidate the modal field count k
+    (ties: the larger) must be at least 2; the winner has the largest (number-like
+    cells - text cells) over the sample lines with k fields; ties go to more lines with
+    k fields, then to the order ``,`` ``;`` tab ``|``. At most ``MAX_COLUMNS`` (10,000)
+    columns are taken; a wider file raises IntakeError.
 7.  Header. In the sample a column is numeric when it has at least as many number-like
     cells as text cells. A *data row* has at least k fields (extras are ignored here)
     and, in every numeric column, a number or a missing marker, with at least one number.
@@ -69,10 +69,11 @@ The rules, in the order they are applied
     ("4,5e2") or when it is not followed by exactly three digits after one to three
     digits without a leading zero ("3,41", "0,125", ",5", "1234,567"); "1,250" and
     "1.250" are ambiguous. "," wins when it has more votes than ".", else "."; when no
-    cell decides, an ambiguous "1,250" in a ";"-delimited file counts for ",". Digit grouping is accepted with the other mark ("," when
-    the decimal mark is ".", "." when it is ",") or a space (also no-break spaces), in
-    groups of exactly three digits: "1,250.0", "1.250,5", "1 250". ``thousands`` in the
-    report is the grouping mark actually used most (None if none).
+    cell decides, an ambiguous "1,250" in a ";"-delimited file counts for ",".
+    Digit grouping is accepted with the other mark ("," when the decimal mark is ".",
+    "." when it is ",") or a space (also no-break spaces), in groups of exactly three
+    digits: "1,250.0", "1.250,5", "1 250". ``thousands`` in the report is the grouping
+    mark actually used most (None if none).
 9.  A number is, after trimming whitespace and removing quotes: an optional sign
     (``+``, ``-`` or the minus sign U+2212), digits with the decimal mark, an optional
     exponent (``1.2E-3``, ``4,5e2``), or grouped digits as above; or ``inf`` /
@@ -105,20 +106,31 @@ The rules, in the order they are applied
     missing name becomes "column N" (N = position); a repeated name becomes "name (2)",
     "name (3)". Units come from the original name: a final "(unit)" or "[unit]", or
     "quantity / unit"; a unit that is only digits is not a unit.
-14. Selection. ``Table.select`` keeps the rows where x and y (and weights) are finite.
+14. Frame. ``Table.frame`` holds the rows kept at intake in file order, with a plain
+    RangeIndex; ``Table.line_numbers`` gives the file line of each. A text column whose
+    cells mostly look like dates or clock times is named in a note (times are not read
+    as numbers).
+15. Selection. ``Table.select`` keeps the rows where x and y (and weights) are finite.
     Each other row is counted once, under the first reason that applies: "missing or
     non-numeric x", "infinite x", "missing or non-numeric y", "infinite y", "missing or
     non-numeric weights", "infinite weights", "negative weights". Its ``dropped`` holds
-    the intake reasons too, so ``rows_used + rows_dropped == rows_read`` always.
+    the intake reasons too, so ``rows_used + rows_dropped == rows_read`` always. A
+    text group column gives an object array of str ("" where empty), a numeric one a
+    float array (NaN where missing). Fewer than two distinct x values is a FitError.
 
 Speed: a clean file (one row per line, every column numeric) is parsed straight into
 float64 by Arrow's CSV reader (``pyarrow.csv``, the reader behind pandas'
 ``engine="pyarrow"``; used directly because it also takes a decimal comma). The result
-is accepted only when every column is a float column and the row count equals the line
-count, so it cannot disagree with the general path. Otherwise lines are split and
-classified with Arrow compute kernels, fields are split vectorised (Python's C ``csv``
-module when the text holds quotes), and numbers are parsed column-wise by the same
-Arrow string-to-float conversion. No per-row Python work is done on clean files.
+is accepted only when every column is a float column with at least one value, no row
+is entirely empty, and the row count equals the line count; otherwise the general path
+reads the file, so the two cannot disagree (a test compares them on every corpus file
+and the fuzz tests on random input). The general path splits and classifies lines with
+Arrow compute kernels, splits fields vectorised (with Python's C ``csv`` module when
+the text holds quotes), and parses numbers column-wise with the same Arrow
+string-to-float conversion; rarer checks (markers, grouping, summary rows) run only on
+the cells that can match. On a 2-core machine a clean 1,000,000-row, 25 MB file reads
+in about 0.2 s; a messy one of that size in well under 2 s, except that quoted fields
+(the csv-module path) take about 3 s per million rows.
 """
 
 from __future__ import annotations
@@ -355,7 +367,7 @@ class Table:
 
         When only x is given, y is the first other numeric column. Rows where x, y or
         the weights are missing, not numbers or infinite are left out and counted by
-        reason (see the module docstring, rule 14); negative weights are left out as
+        reason (see the module docstring, rule 15); negative weights are left out as
         well. ``group`` may name any column; a text group gives an object array of str
         ("" where empty), a numeric group a float array (NaN where missing). Raises
         ColumnError for an unknown or text column, FitError when fewer than two distinct
@@ -1030,7 +1042,8 @@ def _parse_general(region: str, layout: _Layout) -> _Columns:
     lines = pc.list_flatten(pc.split_pattern(pa.array([region], pa.large_string()), "\n"))
     trimmed = pc.utf8_trim_whitespace(lines)
     # Cheap prefixes first; the patterns of rule 5 then run only on the candidates.
-    starts = {c: _np_bool(pc.starts_with(trimmed, c)) for c in {d, "#", "//", ";", "-", "=", "_", ":", "+", "|"}}
+    prefixes = {d, "#", "//", ";", "-", "=", "_", ":", "+", "|"}
+    starts = {c: _np_bool(pc.starts_with(trimmed, c)) for c in prefixes}
     empty_line = _np_bool(pc.equal(trimmed, ""))
     blank_np = empty_line | _match_where(trimmed, starts[d], _blank_re(d))
     rule_cand = np.logical_or.reduce([starts[c] for c in {d, "-", "=", "_", ":", "+", "|"}])
@@ -1100,7 +1113,10 @@ def _parse_general(region: str, layout: _Layout) -> _Columns:
             take = pa.array(idx)
             sub_empty = [e[idx] for e in empty]
             first = pc.coalesce(
-                *[pc.if_else(pa.array(e), pa.scalar(None, c.type), c.take(take)) for e, c in zip(sub_empty, trimmed_cols)]
+                *[
+                    pc.if_else(pa.array(e), pa.scalar(None, c.type), c.take(take))
+                    for e, c in zip(sub_empty, trimmed_cols)
+                ]
             )
             summary[idx] = _np_bool(pc.match_substring_regex(first, _SUMMARY))
             note[idx] = _np_bool(pc.match_substring_regex(first, _NOTE))
@@ -1140,7 +1156,8 @@ def _parse_general(region: str, layout: _Layout) -> _Columns:
     if short_rows.size:
         notes.append(
             f"{_plural(short_rows.size, 'row')} had fewer fields than the header "
-            f"({_lines_phrase(short_rows[:_FIRST_LINES], short_rows.size)}); the missing fields count as empty."
+            f"({_lines_phrase(short_rows[:_FIRST_LINES], short_rows.size)}); "
+            f"the missing fields count as empty."
         )
 
     keep_arr = pa.array(keep)
@@ -1197,7 +1214,10 @@ def _tokens_plain(kept, kept_numbers: np.ndarray, d: str, k: int):
     if counts.size and counts.min() < k:
         pad = pa.scalar(d * k, kept.type)
         split = pc.split_pattern(pc.binary_join_element_wise(kept, pad, pa.scalar("", kept.type)), d)
-    cols = [pc.list_element(split, j) for j in range(k)] if counts.size else [pa.array([], pa.large_string())] * k
+    if counts.size:
+        cols = [pc.list_element(split, j) for j in range(k)]
+    else:
+        cols = [pa.array([], pa.large_string())] * k
     extra = np.zeros(len(counts), dtype=bool)
     long_idx = np.nonzero(counts > k)[0]
     if long_idx.size:
@@ -1265,7 +1285,9 @@ def _number_patterns(decimal: str):
     plain = f"^[+-]?(?:\\d+(?:{dm}\\d*)?|{dm}\\d+)(?:[eE][+-]?\\d+)?$"
     inf = "(?i)^[+-]?inf(?:inity)?$"
     marks = ["." if decimal == "," else ",", " ", "\u00a0", "\u202f"]
-    grouped = {g: f"^[+-]?\\d{{1,3}}(?:{re.escape(g) if g in '.,' else g}\\d{{3}})+(?:{dm}\\d*)?$" for g in marks}
+    grouped = {
+        g: f"^[+-]?\\d{{1,3}}(?:{re.escape(g) if g in '.,' else g}\\d{{3}})+(?:{dm}\\d*)?$" for g in marks
+    }
     return plain, inf, grouped
 
 
@@ -1389,7 +1411,9 @@ def _finish(display: str, encoding: str, layout: _Layout, cols: _Columns) -> Tab
             while f"{base} ({c})" in seen:
                 c += 1
             final = f"{base} ({c})"
-            notes.append(f"The column name '{base}' appears more than once; column {j + 1} is called '{final}'.")
+            notes.append(
+                f"The column name '{base}' appears more than once; column {j + 1} is called '{final}'."
+            )
         seen.add(final)
         names.append(final)
         if unit:
@@ -1442,7 +1466,11 @@ def _finish(display: str, encoding: str, layout: _Layout, cols: _Columns) -> Tab
     # One float64 block for the numeric columns, then the text columns, in file order.
     n_rows = len(cols.lines)
     numeric_frame = pd.DataFrame(
-        np.column_stack([column_data[c] for c in numeric_names]) if n_rows else np.empty((0, len(numeric_names))),
+        (
+            np.column_stack([column_data[c] for c in numeric_names])
+            if n_rows
+            else np.empty((0, len(numeric_names)))
+        ),
         columns=pd.Index(numeric_names),
         index=pd.RangeIndex(n_rows),
     )
