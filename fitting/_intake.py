@@ -318,8 +318,12 @@ class Selection:
     group_name: str | None = None
     line_numbers: np.ndarray | None = field(default=None, repr=False, compare=False)
 
-    def to_dict(self, *, include_arrays: bool = True) -> dict[str, Any]:
-        """A JSON-safe dict; ``include_arrays=False`` leaves out the data arrays."""
+    def to_dict(self, *, include_arrays: bool = False) -> dict[str, Any]:
+        """A JSON-safe dict of names, units and row counts.
+
+        ``include_arrays=True`` adds x, y, weights, group and the file line numbers as
+        lists (NaN and infinities as null); off by default, as they can be millions long.
+        """
         out: dict[str, Any] = {
             "x_name": self.x_name,
             "y_name": self.y_name,

@@ -98,7 +98,7 @@ def test_corpus_file(entry):
     if "x" in entry and entry["x"] in rep.units:
         assert sel.x_unit == rep.units[entry["x"]]
     json.dumps(rep.to_dict(), allow_nan=False)
-    json.dumps(sel.to_dict(), allow_nan=False)
+    json.dumps(sel.to_dict(include_arrays=True), allow_nan=False)
     assert all(isinstance(s, str) and s.endswith(".") for s in rep.summary_lines())
 
 
@@ -336,7 +336,10 @@ def test_text_column_kept_as_strings_and_usable_as_group():
     assert sel.dropped["negative weights"] == DropInfo(1, [3])
     assert sel.dropped["missing or non-numeric weights"] == DropInfo(1, [4])
     assert sel.rows_used + sel.rows_dropped == t.report.rows_read
-    json.dumps(sel.to_dict(), allow_nan=False)
+    meta = json.loads(json.dumps(sel.to_dict(), allow_nan=False))
+    assert "x" not in meta and meta["rows_used"] == 2 and meta["group_name"] == "site"
+    full = json.loads(json.dumps(sel.to_dict(include_arrays=True), allow_nan=False))
+    assert full["x"] == [1.0, 4.0] and full["group"] == ["A", "A"] and full["line_numbers"] == [2, 5]
 
 
 def test_numeric_group_gives_float_array():
@@ -566,3 +569,8 @@ def test_date_and_time_columns_get_a_hint():
     assert any("'clock' holds dates or times" in n for n in t.report.notes)
     t = read_table(b"site,a,b\nNorth,1,2\nSouth,2,3\n")
     assert not any("dates or times" in n for n in t.report.notes)
+
+
+def test_numeric_group_with_missing_values_is_json_safe():
+    sel = read_table(b"x,y,batch\n1,2,1\n2,3,\n3,4,2\n").select(group="batch")
+    assert json.loads(json.dumps(sel.to_dict(include_arrays=True), allow_nan=False))["group"] == [1.0, None, 2.0]

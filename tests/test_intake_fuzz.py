@@ -59,7 +59,7 @@ def _check_invariants(table) -> None:
     assert sel.rows_used + sel.rows_dropped == rep.rows_read
     assert np.isfinite(sel.x).all() and np.isfinite(sel.y).all()
     assert np.unique(sel.x).size >= 2
-    json.dumps(sel.to_dict(), allow_nan=False)
+    json.dumps(sel.to_dict(include_arrays=True), allow_nan=False)
 
 
 def _check_both_paths(data: bytes) -> None:
