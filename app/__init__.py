@@ -49,6 +49,9 @@ def create_app(
     store = DatasetStore(max_bytes=cache_bytes)
     service = FitService(store, upload_limit_bytes=upload_limit_bytes, sample_path=data_path or SAMPLE_PATH)
     service.sample_id()  # read the start-up data now, so a bad path fails at start
+    # The sweep's splitters come from scikit-learn, whose first import costs most of
+    # a second; pay it at start-up rather than on the first user's first split.
+    import sklearn.model_selection  # noqa: F401
 
     app = dash.Dash(
         __name__,

@@ -23,11 +23,11 @@ from typing import Any, Iterable
 import numpy as np
 import plotly.graph_objects as go
 
+from ._atomic import neutralise_cell as _neutralise_text
 from .service import DatasetInfo, DegreeView, ModelView, PredictionView, SplitView
 
 __all__ = ["neutralise_cell", "predictions_csv", "model_json", "html_report", "CAUTION_TEXT"]
 
-_FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 
 CAUTION_TEXT = (
     "Polynomial fits are unreliable outside the range of the data they were fitted on. "
@@ -37,18 +37,22 @@ CAUTION_TEXT = (
 
 
 def neutralise_cell(value: Any) -> str:
-    """A CSV cell as text, with a leading single quote when it could start a formula."""
+    """A CSV cell as text.
+
+    Numbers are written as plain numbers: a value such as -1.5 is a number to
+    every spreadsheet, not a formula. Text goes through the shared rule in
+    ``app._atomic.neutralise_cell`` (OWASP CSV injection guidance: a leading
+    single quote when it begins with = + - @, tab or CR).
+    """
     if value is None:
         return ""
+    if isinstance(value, (bool, np.bool_)):
+        return "yes" if value else "no"
+    if isinstance(value, (int, np.integer)):
+        return str(int(value))
     if isinstance(value, (float, np.floating)):
-        text = "" if not math.isfinite(float(value)) else repr(float(value))
-    elif isinstance(value, (bool, np.bool_)):
-        text = "yes" if value else "no"
-    else:
-        text = str(value)
-    if text.startswith(_FORMULA_START):
-        return "'" + text
-    return text
+        return repr(float(value)) if math.isfinite(float(value)) else ""
+    return _neutralise_text(str(value))
 
 
 def _write_csv(rows: Iterable[Iterable[Any]]) -> str:

@@ -250,10 +250,7 @@ class _LRU:
 
 def _read_table(source: bytes | str | Path, *, max_bytes: int, name: str | None):
     """Read a table with the engine's reader (``fitting.read_table``)."""
-    reader = getattr(fitting, "read_table", None)
-    if reader is None:  # until fitting/__init__.py exports it
-        from fitting._intake import read_table as reader
-    return reader(source, max_bytes=max_bytes, name=name)
+    return fitting.read_table(source, max_bytes=max_bytes, name=name)
 
 
 

@@ -22,7 +22,9 @@ def test_formula_starts_get_a_single_quote(cell):
     assert exports.neutralise_cell(cell) == "'" + cell
 
 
-@pytest.mark.parametrize("cell,text", [("abc", "abc"), ("1.5", "1.5"), (2.5, "2.5"), (None, ""), (True, "yes")])
+@pytest.mark.parametrize(
+    "cell,text", [("abc", "abc"), ("1.5", "1.5"), (2.5, "2.5"), (-2.5, "-2.5"), (-3, "-3"), (None, ""), (True, "yes")]
+)
 def test_other_cells_are_left_alone(cell, text):
     assert exports.neutralise_cell(cell) == text
 
