@@ -558,7 +558,7 @@ def sweep_from_blocks(
         if over > OSCILLATION_FACTOR * yspan:
             where = float(np.linspace(dlo, dhi, 801)[int(np.argmax(np.maximum(curve - yhi, ylo - curve)))])
             deg_notes[d].append(
-                f"degree {d}: between data points the curve swings {over / yspan:.1f}× the data's y range beyond it "
+                f"degree {d}: between data points the curve swings {_ratio(over / yspan)} the data's y range beyond it "
                 f"(near x = {where:.4g}), a sign of oscillation."
             )
         dof = disp.n - p
@@ -568,7 +568,7 @@ def sweep_from_blocks(
             if inflation > BAND_INFLATION_LIMIT:
                 deg_notes[d].append(
                     f"degree {d}: the uncertainty of the curve explodes between data points (its standard error "
-                    f"reaches {inflation:.1f}× the residual scatter)."
+                    f"reaches {_ratio(inflation)} the residual scatter)."
                 )
         if n_train_min is not None and d >= n_train_min - 1:
             deg_notes[d].append(
@@ -614,7 +614,7 @@ def sweep_from_blocks(
             overfit[i] = True
             deg_notes[degs[i]].insert(
                 0,
-                f"degree {degs[i]}: test error is {test_rmse[i] / test_rmse[imin]:.1f}× its minimum "
+                f"degree {degs[i]}: test error is {_ratio(test_rmse[i] / test_rmse[imin])} its minimum "
                 f"(degree {dmin}) while training error keeps falling — the curve is chasing noise.",
             )
     over_from = degs[int(np.argmax(overfit))] if overfit.any() else None
@@ -659,6 +659,15 @@ def sweep_from_blocks(
         display_n=disp.n,
         display_domain=(dlo, dhi),
     )
+
+
+def _ratio(r: float) -> str:
+    """A ratio for a sentence: 3.4×, 42×, 4.2e+08×."""
+    if r < 10:
+        return f"{r:.1f}×"
+    if r < 10_000:
+        return f"{r:.0f}×"
+    return f"{r:.2g}×"
 
 
 def _triangular_inverse(r: np.ndarray) -> np.ndarray:
