@@ -23,13 +23,14 @@ This package never imports the dashboard (``app``), dash or plotly.
 """
 
 from ._errors import ColumnError, DegreescopeError, FileTooLargeError, FitError, IntakeError, RankWarning
-from ._intake import DEFAULT_MAX_BYTES, DropInfo, IntakeReport, Selection, Table, read_table
+from ._intake import DEFAULT_MAX_BYTES, MAX_COLUMNS, DropInfo, IntakeReport, Selection, Table, read_table
 from ._polyfit import PolynomialFit, fit_polynomial
 from ._stream import fold_labels, holdout_mask, sweep_source
 from ._sweep import DegreeSweep, sweep_degrees
 
 __all__ = [
     "DEFAULT_MAX_BYTES",
+    "MAX_COLUMNS",
     "ColumnError",
     "DegreeSweep",
     "DegreescopeError",
