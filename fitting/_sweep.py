@@ -607,17 +607,35 @@ def sweep_from_blocks(
     rec = degs[irec]
 
     # overfitting: test error above its minimum by more than its SE while training error keeps falling
+    # Overfitting sets in at the lowest degree above the minimum whose test error
+    # exceeds the minimum by more than its SE while training error keeps falling;
+    # every higher degree is judged overfit from there on.
     overfit = np.zeros(ndeg, dtype=bool)
     margin = se[imin] if has_se else NO_SE_RISE * test_rmse[imin]
-    for i in range(imin + 1, ndeg):
-        if finite[i] and test_rmse[i] > test_rmse[imin] + margin and train_rmse[i] < train_rmse[imin]:
+    rises = np.array(
+        [
+            i > imin and bool(finite[i]) and test_rmse[i] > test_rmse[imin] + margin and train_rmse[i] < train_rmse[imin]
+            for i in range(ndeg)
+        ]
+    )
+    over_from = degs[int(np.argmax(rises))] if rises.any() else None
+    if over_from is not None:
+        for i in range(degs.index(over_from), ndeg):
+            if not finite[i]:
+                continue
             overfit[i] = True
-            deg_notes[degs[i]].insert(
-                0,
-                f"degree {degs[i]}: test error is {_ratio(test_rmse[i] / test_rmse[imin])} its minimum "
-                f"(degree {dmin}) while training error keeps falling — the curve is chasing noise.",
-            )
-    over_from = degs[int(np.argmax(overfit))] if overfit.any() else None
+            ratio = _ratio(test_rmse[i] / test_rmse[imin])
+            if rises[i]:
+                msg = (
+                    f"degree {degs[i]}: test error is {ratio} its minimum (degree {dmin}) while training error "
+                    "keeps falling — the curve is chasing noise."
+                )
+            else:
+                msg = (
+                    f"degree {degs[i]}: past degree {over_from}, where overfitting sets in; its test error "
+                    f"({ratio} the minimum at degree {dmin}) is no better, so the extra terms fit noise."
+                )
+            deg_notes[degs[i]].insert(0, msg)
     for d, msg in failed.items():
         deg_notes[d].insert(0, f"degree {d}: could not be validated: {msg}.")
     finite_aic = np.isfinite(aic)

@@ -213,7 +213,8 @@ def test_one_standard_error_rule_on_a_quadratic():
 def test_overfitting_from_on_few_points():
     # Invented case: 24 noisy points of a cubic; high degrees chase the noise. overfitting_from is the first
     # degree above the best whose mean test RMSE exceeds the minimum by more than its SE while the training
-    # error is below the training error at the best degree (semantics stated in fitting/_sweep.py).
+    # error is below the training error at the best degree; every degree from there on is judged
+    # overfit (semantics stated in fitting/_sweep.py).
     rng = np.random.default_rng(17)
     x = np.sort(rng.uniform(0, 4, 24))
     y = x**3 - 4 * x**2 + 3 * x + rng.normal(0, 0.6, x.size)
@@ -226,9 +227,29 @@ def test_overfitting_from_on_few_points():
     expected = [kept[i] for i in range(imin + 1, len(kept)) if mean[i] > mean[imin] + se[imin] and train[i] < train[imin]]
     assert expected, "the constructed case must overfit"
     assert s.overfitting_from == expected[0]
-    assert [int(d) for d in s.degrees[s.overfit]] == expected
+    assert [int(d) for d in s.degrees[s.overfit]] == [d for d in kept if d >= expected[0]]
     assert s.recommended_degree == kept[irec]
     assert any("chasing noise" in m for m in s.warnings_for(expected[0]))
+
+
+def test_degrees_past_the_onset_are_overfit_even_where_test_error_dips():
+    # A degree above overfitting_from whose test error dips back within one SE is still past the onset:
+    # it is no better than the minimum and carries more terms (semantics stated in fitting/_sweep.py).
+    rng = np.random.default_rng(20261204)
+    x = np.sort(rng.uniform(-2.5, 2.5, 30))
+    y = 0.6 * x**3 - 0.5 * x**2 - 2.5 * x + 1 + rng.normal(0, 1.5, x.size)
+    s = sweep_degrees(x, y, degrees=range(0, 13), folds=10, seed=0)
+    onset = s.overfitting_from
+    assert onset is not None
+    imin = int(np.nanargmin(s.test_rmse))
+    dips = 0
+    for i, d in enumerate(s.degrees):
+        assert bool(s.overfit[i]) == (int(d) >= onset)
+        rises = s.test_rmse[i] > s.test_rmse[imin] + s.test_rmse_se[imin] and s.train_rmse[i] < s.train_rmse[imin]
+        if int(d) > onset and not rises:
+            dips += 1
+            assert any(f"past degree {onset}" in m for m in s.warnings_for(int(d)))
+    assert dips >= 1, "the constructed case must have a degree past the onset whose test error dips back"
 
 
 def test_holdout_overfitting_uses_ten_percent_rise():
