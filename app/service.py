@@ -30,7 +30,7 @@ import math
 import re
 import threading
 from collections import OrderedDict
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Callable
 
@@ -472,7 +472,7 @@ class FitService:
         if sel.group is not None:
             steady_label = f"grouped folds by {cols.group!r} ({steady.n_splits} groups)"
         else:
-            steady_label = steady.scheme.replace("(seed 0", "(seed 0").strip()
+            steady_label = steady.scheme
         return SplitView(
             columns=cols,
             split=split,

@@ -29,8 +29,6 @@ import base64
 import http.client
 import json
 import math
-import re
-import statistics
 import sys
 import threading
 import time

@@ -57,7 +57,6 @@ import math
 import os
 import time
 from dataclasses import dataclass, field
-from pathlib import Path
 from typing import Callable, Iterator
 
 import numpy as np
@@ -65,7 +64,7 @@ import numpy as np
 from . import _basis
 from ._errors import ColumnError, DegreescopeError, FitError, IntakeError
 from ._polyfit import qr_r
-from ._sweep import MAX_DEGREE, Block, DegreeSweep, Split, _span, block_factor, sweep_from_blocks
+from ._sweep import MAX_DEGREE, Block, DegreeSweep, Split, _span, block_factor, normalise_degrees, sweep_from_blocks
 
 __all__ = ["sweep_source", "fold_labels", "holdout_mask"]
 
@@ -597,16 +596,7 @@ def sweep_source(
     """
     started = time.perf_counter()
     labeller = _make_labeller(folds, holdout, seed)
-    try:
-        degs = sorted({int(d) for d in degrees})
-    except (TypeError, ValueError):
-        raise FitError(f"Degrees must be whole numbers, not {degrees!r}.") from None
-    if not degs or degs[0] < 0:
-        raise FitError("Give at least one degree, all of them 0 or more.")
-    notes: list[str] = []
-    if degs[-1] > MAX_DEGREE:
-        notes.append(f"Degrees above {MAX_DEGREE} were left out: double-precision data rarely support them.")
-        degs = [d for d in degs if d <= MAX_DEGREE] or [MAX_DEGREE]
+    degs, notes = normalise_degrees(degrees)
     try:
         chunk_rows = int(chunk_rows)
     except (TypeError, ValueError):

@@ -44,7 +44,7 @@ from . import _basis
 from ._errors import FitError
 from ._polyfit import condition_of, qr_r, t_quantile, single_thread_blas, validate_xyw
 
-__all__ = ["DegreeSweep", "sweep_degrees", "Block", "Split", "sweep_from_blocks", "block_factor"]
+__all__ = ["DegreeSweep", "sweep_degrees", "Block", "Split", "sweep_from_blocks", "block_factor", "normalise_degrees"]
 
 MAX_DEGREE = 20
 # thresholds for diagnoses: common practice, no source; chosen for this tool
@@ -368,16 +368,7 @@ def _sweep_degrees(x, y, *, degrees, folds, holdout, ordered, repeats, seed, wei
         raise FitError("Repeats and seed must be whole numbers.") from None
     if repeats < 1:
         raise FitError(f"Repeats must be at least 1, not {repeats}.")
-    try:
-        degs = sorted({int(d) for d in degrees})
-    except (TypeError, ValueError):
-        raise FitError(f"Degrees must be whole numbers, not {degrees!r}.") from None
-    if not degs or degs[0] < 0:
-        raise FitError("Give at least one degree, all of them 0 or more.")
-    notes: list[str] = []
-    if degs[-1] > MAX_DEGREE:
-        notes.append(f"Degrees above {MAX_DEGREE} were left out: double-precision data rarely support them.")
-        degs = [d for d in degs if d <= MAX_DEGREE] or [MAX_DEGREE]
+    degs, notes = normalise_degrees(degrees)
 
     parts, scheme = _partition(x, folds=folds, holdout=holdout, ordered=ordered, repeats=repeats, seed=seed)
 
@@ -425,6 +416,21 @@ def _sweep_degrees(x, y, *, degrees, folds, holdout, ordered, repeats, seed, wei
         test_mask=test_mask,
     )
     return result
+
+
+def normalise_degrees(degrees) -> tuple[list[int], list[str]]:
+    """Sorted distinct degrees, capped at MAX_DEGREE, and the notes that explain any cap."""
+    try:
+        degs = sorted({int(d) for d in degrees})
+    except (TypeError, ValueError):
+        raise FitError(f"Degrees must be whole numbers, not {degrees!r}.") from None
+    if not degs or degs[0] < 0:
+        raise FitError("Give at least one degree, all of them 0 or more.")
+    notes: list[str] = []
+    if degs[-1] > MAX_DEGREE:
+        notes.append(f"Degrees above {MAX_DEGREE} were left out: double-precision data rarely support them.")
+        degs = [d for d in degs if d <= MAX_DEGREE] or [MAX_DEGREE]
+    return degs, notes
 
 
 def _span(ds: list[int]) -> str:

@@ -11,7 +11,6 @@ from __future__ import annotations
 
 import importlib.util
 import re
-import resource
 import subprocess
 import sys
 import time
