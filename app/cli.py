@@ -89,6 +89,16 @@ def _finite_float(text: str) -> float:
     return v
 
 
+MAX_SIZE_LIMIT_MB = 1024 * 1024  # 1 TiB: far above any file this reads into memory
+
+
+def _size_limit_mb(text: str) -> int:
+    v = _positive_int(text)
+    if v > MAX_SIZE_LIMIT_MB:
+        raise argparse.ArgumentTypeError(f"expected at most {MAX_SIZE_LIMIT_MB} (1 TiB), not {text!r}")
+    return v
+
+
 def _port(text: str) -> int:
     v = _nonneg_int(text)
     if v > 65535:
@@ -116,7 +126,7 @@ def build_parser() -> argparse.ArgumentParser:
     def intake_options(p: argparse.ArgumentParser) -> None:
         p.add_argument(
             "--size-limit-mb",
-            type=_positive_int,
+            type=_size_limit_mb,
             default=DEFAULT_SIZE_LIMIT_MB,
             metavar="MB",
             help=f"refuse input files larger than this many MiB (default: {DEFAULT_SIZE_LIMIT_MB})",
@@ -281,11 +291,22 @@ def _existing_file(path: str, what: str = "file") -> Path:
         raise UsageError(f"the {what} {path!r} does not exist")
     if p.is_dir():
         raise UsageError(f"{path!r} is a folder, not a {what}")
+    if not p.is_file():  # a FIFO, socket or device: reading it could block for ever
+        raise UsageError(f"{path!r} is not a regular file; give a {what} on disk")
     return p
 
 
 def _read(path: Path, args) -> Any:
-    return fitting.read_table(path, max_bytes=int(args.size_limit_mb) * MIB, name=path.name)
+    try:
+        return fitting.read_table(path, max_bytes=int(args.size_limit_mb) * MIB, name=path.name)
+    except fitting.FileTooLargeError as exc:
+        size = getattr(exc, "size_bytes", None)
+        if size is None:
+            raise
+        raise UsageError(
+            f"{path.name!r} is {size:,} bytes, over the {int(args.size_limit_mb):,} MiB size limit; "
+            f"split the file, or raise the limit with --size-limit-mb {-(-size // MIB)}"
+        ) from None
 
 
 def _select(table, args, *, weights=None, group=None):
@@ -347,7 +368,8 @@ def _cmd_fit(args) -> int:
     warnings_all = list(fit.warnings)
     saved = None
     if args.save_model:
-        saved = _write_output(args.save_model, lambda p: write_text_atomic(p, json.dumps(_clean(model), allow_nan=False, indent=2) + "\n"))
+        saved = _write_output(args.save_model, lambda p: write_text_atomic(p, json.dumps(_clean(model), allow_nan=False, indent=2) + "\n"),
+                              inputs=[path])
 
     if args.json:
         out = dict(model)
@@ -401,10 +423,17 @@ def _cmd_fit(args) -> int:
     return 0
 
 
-def _write_output(target: str, writer) -> Path:
+def _write_output(target: str, writer, *, inputs: Sequence[Path] = ()) -> Path:
     dest = Path(target)
     if dest.is_dir():
         raise UsageError(f"{target!r} is a folder; give a file name to write")
+    for src in inputs:  # input files are only ever read
+        try:
+            same = dest.exists() and os.path.samefile(dest, src)
+        except OSError:
+            same = False
+        if same:
+            raise UsageError(f"{target!r} is an input of this command; give another file name to write")
     if not (dest.parent if str(dest.parent) else Path(".")).is_dir():
         raise UsageError(f"cannot write {target!r}: the folder {str(dest.parent)!r} does not exist")
     try:
@@ -578,12 +607,14 @@ def _cmd_sweep(args) -> int:
 def _load_model(path_text: str):
     path = _existing_file(path_text, "model file")
     try:
-        raw = path.read_text(encoding="utf-8")
+        raw = path.read_text(encoding="utf-8-sig")  # a BOM from an editor is harmless
         data = json.loads(raw)
     except UnicodeDecodeError:
         raise UsageError(f"{path_text!r} is not a text (JSON) model file") from None
     except json.JSONDecodeError as exc:
         raise UsageError(f"{path_text!r} is not valid JSON (line {exc.lineno}: {exc.msg})") from None
+    except RecursionError:
+        raise UsageError(f"{path_text!r} is not a degreescope model file (its JSON is nested too deeply)") from None
     if not isinstance(data, dict):
         raise UsageError(f"{path_text!r} is not a degreescope model file (expected a JSON object)")
     return fitting.PolynomialFit.from_dict(data)
@@ -660,7 +691,8 @@ def _cmd_predict(args) -> int:
              cell(r["prediction_lower"]), cell(r["prediction_upper"]), "yes" if r["outside_range"] else "no"]
             for r in rows
         ]
-        written = _write_output(args.output, lambda p: write_csv_atomic(p, header, body))
+        inputs = [Path(args.model)] + ([Path(args.input)] if args.input else [])
+        written = _write_output(args.output, lambda p: write_csv_atomic(p, header, body), inputs=inputs)
 
     if args.json:
         _emit_json(

@@ -84,6 +84,9 @@ def t_quantile(level: float, dof: int) -> float:
 # input checks shared by fits and sweeps
 
 
+Y_MAGNITUDE_LIMIT = 1e150  # |y| beyond this (or below its inverse) overflows (underflows) y**2 sums
+
+
 def validate_xyw(x, y, weights=None) -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:
     """Return float64 copies of x, y, weights after checking them; raise FitError."""
     try:
@@ -113,6 +116,19 @@ def validate_xyw(x, y, weights=None) -> tuple[np.ndarray, np.ndarray, np.ndarray
             )
     if np.unique(x).size < 2:
         raise FitError("x has fewer than two distinct values; a curve needs at least two. Choose another x column.")
+    if not np.isfinite(float(x.max()) - float(x.min())):
+        raise FitError(
+            f"The x values span {float(x.min()):.3g} to {float(x.max()):.3g}, a range too wide for double precision; "
+            "express x in larger units (rescale it) and fit again."
+        )
+    ymax = float(np.max(np.abs(y)))
+    if ymax > Y_MAGNITUDE_LIMIT or 0.0 < ymax < 1.0 / Y_MAGNITUDE_LIMIT:
+        # sums of squared residuals would overflow to infinity or underflow to zero in double precision
+        raise FitError(
+            f"The y values reach {ymax:.3g} at most, {'above' if ymax > 1 else 'below'} what sums of squares in double "
+            f"precision can hold (about 1e{'' if ymax > 1 else '-'}150); express y in "
+            f"{'larger' if ymax > 1 else 'smaller'} units (rescale it) and fit again."
+        )
     return x, y, w
 
 
@@ -474,10 +490,38 @@ class PolynomialFit:
             coef = np.asarray(data["coefficients"], dtype=np.float64)
             igram = np.asarray(sf["inverse_gram"], dtype=np.float64)
             bcoef = np.asarray(sf["coefficients"], dtype=np.float64)
-            if igram.shape != (bcoef.size, bcoef.size) or coef.size != int(data["degree"]) + 1:
+            degree = int(data["degree"])
+            p = degree + 1
+            q = degree if bool(data.get("through_origin", False)) else p  # through the origin: no constant column
+            if igram.shape != (q, q) or coef.shape != (p,) or bcoef.shape != (q,):
                 raise FitError("The model file is inconsistent (array sizes do not match its degree); re-save it.")
+            offset, scale = float(sf["offset"]), float(sf["scale"])
+            domain = (float(data["domain"][0]), float(data["domain"][1]))
+            dof, n = int(data["dof"]), int(data["rows_used"])
+            if not (
+                np.isfinite(bcoef).all()
+                and np.isfinite(igram).all()
+                and math.isfinite(offset)
+                and math.isfinite(scale)
+                and scale > 0
+                and all(math.isfinite(v) for v in domain)
+                and domain[0] < domain[1]
+                and 0 <= dof < n
+                and len(data["domain"]) == 2
+                and not _unnum(data["residual_sd"]) < 0
+            ):
+                raise FitError(
+                    "The model file holds values no fit produces (a missing or infinite coefficient, an empty x "
+                    "range, or impossible row counts); re-save it with degreescope."
+                )
+            warnings = data.get("warnings", [])
+            if not isinstance(warnings, list) or not all(isinstance(w, str) for w in warnings):
+                raise FitError("The model file's 'warnings' must be a list of sentences; re-save it with degreescope.")
+            for key in ("x_name", "y_name", "x_unit", "y_unit"):
+                if data.get(key) is not None and not isinstance(data[key], str):
+                    raise FitError(f"The model file's {key!r} must be text; re-save it with degreescope.")
             return cls(
-                degree=int(data["degree"]),
+                degree=degree,
                 through_origin=bool(data.get("through_origin", False)),
                 coefficients=coef,
                 standard_errors=np.array([_unnum(v) for v in data["standard_errors"]], dtype=np.float64),
@@ -486,17 +530,17 @@ class PolynomialFit:
                 r_squared=_unnum(data["r_squared"]),
                 adjusted_r_squared=_unnum(data.get("adjusted_r_squared")),
                 rmse=_unnum(data.get("rmse")),
-                dof=int(data["dof"]),
-                n=int(data["rows_used"]),
+                dof=dof,
+                n=n,
                 condition_number=_unnum(data.get("condition_number")),
-                domain=(float(data["domain"][0]), float(data["domain"][1])),
+                domain=domain,
                 rss=float("nan"),
                 weighted=bool(data.get("weighted", False)),
-                offset=float(sf["offset"]),
-                scale=float(sf["scale"]),
+                offset=offset,
+                scale=scale,
                 basis_coefficients=bcoef,
                 basis_inverse_gram=igram,
-                warnings=tuple(data.get("warnings", ())),
+                warnings=tuple(warnings),
                 x_name=data.get("x_name"),
                 y_name=data.get("y_name"),
                 x_unit=data.get("x_unit"),
@@ -504,7 +548,7 @@ class PolynomialFit:
             )
         except FitError:
             raise
-        except (KeyError, TypeError, ValueError, IndexError) as exc:
+        except (KeyError, TypeError, ValueError, IndexError, OverflowError, AttributeError) as exc:
             raise FitError(f"The model file is incomplete or malformed ({exc!s}); re-save it with degreescope.") from None
 
 

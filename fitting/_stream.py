@@ -259,10 +259,26 @@ def _csv_header(path: str) -> tuple[int, int]:
     raise IntakeError(f"{path} has no header line and no data; load a file with a header row and data rows.")
 
 
+def _refuse_binary_head(path: str) -> None:
+    """The in-memory reader's binary checks, on the first 64 KiB: a spreadsheet, image or NUL-filled
+    file is refused at once instead of being scanned for a header line."""
+    from ._intake import _SIGNATURES, _binary_error
+
+    with open(path, "rb") as fh:
+        head = fh.read(1 << 16)
+    name = os.path.basename(path) or path
+    for sig, what in _SIGNATURES:
+        if head.startswith(sig):
+            raise _binary_error(name, what)
+    if b"\x00" in head:
+        raise _binary_error(name, "it contains NUL bytes")
+
+
 def _csv_source(path: str) -> _Source:
     import pyarrow as pa
     import pyarrow.csv as pcsv
 
+    _refuse_binary_head(path)
     skip, offset = _csv_header(path)
     try:
         reader = pcsv.open_csv(

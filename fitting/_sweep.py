@@ -52,6 +52,7 @@ CONDITION_LIMIT = 1e8  # condition number of the mapped Chebyshev design
 OSCILLATION_FACTOR = 0.5  # curve beyond the y range by more than half the range
 BAND_INFLATION_LIMIT = 3.0  # confidence band (1 SE) above 3x the residual SD between points
 NO_SE_RISE = 0.10  # with no SE, a 10 % rise over the minimum counts as a rise
+MAX_SEED = 2**32 - 1  # the largest seed numpy's RandomState (behind scikit-learn's splitters) accepts
 
 
 @dataclass
@@ -368,6 +369,8 @@ def _sweep_degrees(x, y, *, degrees, folds, holdout, ordered, repeats, seed, wei
         raise FitError("Repeats and seed must be whole numbers.") from None
     if repeats < 1:
         raise FitError(f"Repeats must be at least 1, not {repeats}.")
+    if not 0 <= seed <= MAX_SEED:  # scikit-learn's splitters seed numpy's RandomState, which takes 0 to 2**32 - 1
+        raise FitError(f"The seed must be a whole number from 0 to {MAX_SEED}, not {seed}.")
     degs, notes = normalise_degrees(degrees)
 
     parts, scheme = _partition(x, folds=folds, holdout=holdout, ordered=ordered, repeats=repeats, seed=seed)

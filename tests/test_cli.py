@@ -602,3 +602,96 @@ def test_progress_line_only_on_a_terminal(tmp_path):
     assert proc.returncode == 0, seen
     assert json.loads(out)["rows_used"] == 5000  # stdout stays pure JSON
     assert b"read " in seen and b"rows" in seen
+
+
+# -- hostile inputs found by trying the command by hand ---------------------------------------
+
+
+def test_fifo_is_refused_instead_of_blocking(tmp_path):
+    fifo = tmp_path / "pipe.csv"
+    os.mkfifo(fifo)  # opening it for reading would wait for a writer for ever
+    for args in (("fit", fifo, "--degree", 1), ("sweep", fifo), ("predict", fifo, "--at", 1)):
+        rc, out, err = run(*args)
+        assert_one_error_line(rc, out, err)
+        assert "not a regular file" in err
+
+
+def test_writing_onto_an_input_is_refused_and_the_input_kept(tmp_path):
+    data = tmp_path / "data.csv"
+    shutil.copy(SENSOR, data)
+    before = sha256(data)
+    assert_one_error_line(*run("fit", data, "--degree", 2, "--save-model", data))
+    assert sha256(data) == before
+    model = tmp_path / "m.json"
+    assert run("fit", data, "--degree", 2, "--save-model", model)[0] == 0
+    model_sha = sha256(model)
+    assert_one_error_line(*run("predict", model, "--at", 1, "--output", model))
+    assert_one_error_line(*run("predict", model, "--input", data, "--output", data))
+    assert sha256(model) == model_sha and sha256(data) == before
+
+
+@pytest.mark.parametrize("seed", ["-5", str(2**32), "99999999999999999999999"])
+def test_seed_out_of_range_exits_2(seed):
+    rc, out, err = run("sweep", SENSOR, "--max-degree", 3, "--seed", seed)
+    assert_one_error_line(rc, out, err)
+    assert "from 0 to 4294967295" in err
+
+
+def test_absurd_size_limit_exits_2():
+    assert_one_error_line(*run("fit", SENSOR, "--degree", 1, "--size-limit-mb", "99999999999999999"))
+
+
+def test_sparse_file_over_the_limit_is_refused_at_once(tmp_path):
+    big = tmp_path / "sparse.csv"
+    with open(big, "wb") as fh:
+        fh.truncate(2 * 1024**3)  # 2 GiB of NUL bytes, sparse on disk
+    rc, out, err = run("fit", big, "--degree", 1)
+    assert_one_error_line(rc, out, err)
+    assert "--size-limit-mb 2048" in err  # the command line's option, not the engine's parameter name
+    rc, out, err = run("sweep", big)  # over 64 MiB: the chunked path, which used to scan 2 GiB for a header
+    assert_one_error_line(rc, out, err)
+    assert "NUL bytes" in err
+
+
+def _model_variants(good: dict) -> dict:
+    sf = good["stable_form"]
+    return {
+        "huge integer": {**good, "residual_sd": 10**400},
+        "name not text": {**good, "x_name": 12},
+        "name a list": {**good, "x_name": ["x"]},
+        "warnings a string": {**good, "warnings": "oops"},
+        "basis longer than degree": {**good, "stable_form": {**sf, "coefficients": [1.0] * 200}},
+        "zero scale": {**good, "stable_form": {**sf, "scale": 0}},
+        "reversed domain": {**good, "domain": [good["domain"][1], good["domain"][0]]},
+        "negative residual SD": {**good, "residual_sd": -1.0},
+        "negative dof": {**good, "dof": -3},
+    }
+
+
+def test_malformed_model_files_exit_2(tmp_path):
+    model = tmp_path / "m.json"
+    assert run("fit", SENSOR, "--degree", 2, "--save-model", model)[0] == 0
+    good = json.loads(model.read_text())
+    for what, variant in _model_variants(good).items():
+        bad = tmp_path / "bad.json"
+        bad.write_text(json.dumps(variant))
+        rc, out, err = run("predict", bad, "--at", 1)
+        assert rc == 2, (what, err)
+        assert_one_error_line(rc, out, err)
+    deep = tmp_path / "deep.json"
+    deep.write_text("[" * 100000 + "]" * 100000)
+    assert_one_error_line(*run("predict", deep, "--at", 1))
+    bom = tmp_path / "bom.json"
+    bom.write_text("\ufeff" + model.read_text(), encoding="utf-8")  # as some editors save it
+    rc, out, err = run("predict", bom, "--at", 1)
+    assert rc == 0, err
+
+
+@pytest.mark.parametrize("scale", ["1e300", "1e-300"])
+def test_y_magnitudes_beyond_double_precision_exit_2(tmp_path, scale):
+    path = tmp_path / "extreme.csv"
+    path.write_text("x,y\n" + "".join(f"{i},{i * i}e{scale[2:]}\n" for i in range(1, 13)))
+    for args in (("sweep", path), ("fit", path, "--degree", 2)):
+        rc, out, err = run(*args)
+        assert_one_error_line(rc, out, err)
+        assert "units" in err

@@ -205,3 +205,35 @@ def test_sweep_on_tiny_data_leave_one_out():
     assert s.degrees.max() == 4
     assert np.isfinite(s.test_rmse).all()
     assert any("interpolates the points" in m for m in s.warnings_for(4))
+
+
+@pytest.mark.parametrize("seed", [-1, 2**32, 10**30])
+def test_seed_outside_the_generator_range_is_a_sentence(seed):
+    x, y = _xy()
+    with pytest.raises(FitError) as err:
+        sweep_degrees(x, y, degrees=range(3), seed=seed)
+    assert "from 0 to 4294967295" in str(err.value) and _is_sentence(str(err.value))
+    sweep_degrees(x, y, degrees=range(3), seed=2**32 - 1)  # the largest accepted seed works
+
+
+@pytest.mark.parametrize(
+    "x, y, match",
+    [
+        (np.arange(1.0, 12.0), np.arange(1.0, 12.0) ** 2 * 1e300, "larger units"),  # squares overflow
+        (np.arange(1.0, 12.0), np.arange(1.0, 12.0) ** 2 * 1e-300, "smaller units"),  # squares underflow to 0
+        (np.array([-1e308, 0.0, 5e307, 1e308]), np.arange(4.0), "range too wide"),  # max - min overflows
+    ],
+)
+def test_magnitudes_beyond_double_precision_sums_are_refused(x, y, match):
+    # before: the sweep reported RMSE 0 for every degree (1e-300) or "check for duplicated x" (1e300),
+    # the fit gave coefficients off by 1e285, and an overflowing x range crashed in the SVD
+    for call in (lambda: fit_polynomial(x, y, 1), lambda: sweep_degrees(x, y, degrees=range(2), folds=2)):
+        with pytest.raises(FitError, match=match) as err:
+            call()
+        assert _is_sentence(str(err.value))
+
+
+def test_x_far_from_zero_is_still_fitted():
+    x = np.arange(1.0, 12.0) * 1e300  # only y magnitudes are limited; x is mapped to [-1, 1]
+    fit = fit_polynomial(x, np.arange(1.0, 12.0), 1)
+    assert fit.predict(np.array([5e300]))[0] == pytest.approx(5.0, rel=1e-9)
