@@ -217,6 +217,7 @@ def build_wsgi(
     inner = getattr(dash_app, "server", dash_app)  # a Dash app's Flask server, or a WSGI app itself
     if inner is not dash_app and hasattr(inner, "register_error_handler"):
         _answer_unknown_scripts_with_404(inner)
+        _answer_malformed_callbacks_with_400(inner)
     return _Guard(
         app=inner,
         allowed_hosts=allowed_host_headers(host, port, allowed_hosts),
@@ -233,6 +234,33 @@ def _answer_unknown_scripts_with_404(flask_app: Any) -> None:
         return "Not found.\n", 404, {"Content-Type": "text/plain; charset=utf-8"}
 
     flask_app.register_error_handler(DependencyException, not_found)
+
+
+_MALFORMED = (KeyError, IndexError, TypeError, AttributeError, ValueError)
+
+
+def _answer_malformed_callbacks_with_400(flask_app: Any) -> None:
+    """A callback request whose outputs, inputs or state do not match a registered callback makes Dash
+    raise one of ``_MALFORMED`` or a CallbackException while it unpacks the request (a 500). The callbacks themselves turn every
+    exception into a message in their panel, so on the callback route these come from the request: 400.
+    Elsewhere they stay 500s, logged with their traceback."""
+    from dash.exceptions import CallbackException, InvalidCallbackReturnValue, PreventUpdate
+    from flask import request
+    from werkzeug.exceptions import HTTPException
+
+    def malformed(exc):
+        if isinstance(exc, HTTPException):  # werkzeug's BadRequestKeyError is both a KeyError and a 400
+            return exc
+        if isinstance(exc, PreventUpdate):
+            return "", 204
+        if request.path.endswith("/_dash-update-component") and not isinstance(exc, InvalidCallbackReturnValue):
+            flask_app.logger.warning("refused a malformed callback request: %s: %s", type(exc).__name__, exc)
+            return "This request does not match any of the dashboard's callbacks.\n", 400, {"Content-Type": "text/plain; charset=utf-8"}
+        flask_app.logger.error("Exception on %s [%s]", request.path, request.method, exc_info=exc)
+        return "Internal server error.\n", 500, {"Content-Type": "text/plain; charset=utf-8"}
+
+    for cls in (*_MALFORMED, CallbackException):  # CallbackException: "Inputs do not match callback definition"
+        flask_app.register_error_handler(cls, malformed)
 
 
 @dataclass

@@ -279,3 +279,30 @@ def test_real_dashboard_behind_the_guard(running):
         assert "dataset" not in answer or answer["dataset"].get("data") in (None, {})  # nothing was loaded
         assert "upload-notice" in answer
         assert not Path("/tmp/degreescope-pwned").exists()
+
+
+def test_malformed_callback_requests_are_400_and_the_server_keeps_serving(running):
+    import json
+
+    from app import create_app
+
+    srv = running(create_app(None))
+    upload = {"output": "..dataset.data...upload-notice.children..",
+              "outputs": [{"id": "dataset", "property": "data"}, {"id": "upload-notice", "property": "children"}],
+              "changedPropIds": ["upload.contents"]}
+    bodies = [
+        b"[]",  # not an object
+        json.dumps({"output": "no-such.thing", "inputs": []}).encode(),  # no such callback
+        json.dumps({**upload, "inputs": [], "state": []}).encode(),  # inputs missing
+        json.dumps({**upload, "inputs": "x", "state": 5}).encode(),  # wrong types
+    ]
+    for body in bodies:
+        status, _, resp = _request(srv.port, "/_dash-update-component", method="POST", body=body,
+                                   headers={"Content-Type": "application/json"})
+        assert status == 400, (body, status, resp[:200])
+        assert b"Traceback" not in resp
+    status, _, resp = _request(srv.port, "/_dash-update-component", method="POST", body=b"{not json",
+                               headers={"Content-Type": "application/json"})
+    assert status == 400
+    status, _, body = _request(srv.port, "/_dash-layout")
+    assert status == 200 and b"sensor_calibration.csv" in body
