@@ -526,7 +526,10 @@ def _load(source, max_bytes: int, name: str | None) -> tuple[bytes, str]:
             path = os.fsdecode(path)
         display = name or os.path.basename(path) or path
         try:
-            if not stat.S_ISREG(os.stat(path).st_mode):  # before open(): opening a FIFO blocks until a writer comes
+            mode = os.stat(path).st_mode
+            if stat.S_ISDIR(mode):
+                raise IsADirectoryError(path)
+            if not stat.S_ISREG(mode):  # before open(): opening a FIFO blocks until a writer comes
                 raise IntakeError(f"'{display}' is not a regular file; choose a CSV file.")
             with open(path, "rb") as fh:
                 st = os.fstat(fh.fileno())

@@ -574,3 +574,12 @@ def test_date_and_time_columns_get_a_hint():
 def test_numeric_group_with_missing_values_is_json_safe():
     sel = read_table(b"x,y,batch\n1,2,1\n2,3,\n3,4,2\n").select(group="batch")
     assert json.loads(json.dumps(sel.to_dict(include_arrays=True), allow_nan=False))["group"] == [1.0, None, 2.0]
+
+
+def test_a_fifo_is_refused_without_waiting_for_a_writer(tmp_path):
+    import os
+
+    fifo = tmp_path / "pipe.csv"
+    os.mkfifo(fifo)  # open() on it would block until something writes
+    with pytest.raises(IntakeError, match="not a regular file"):
+        read_table(fifo)
