@@ -354,6 +354,9 @@ def on_model(service: FitService, key, degree):
 # predictions
 
 
+PREDICT_ROWS_SHOWN = 50  # rows of the on-page prediction table; the CSV export holds every row
+
+
 @guarded(1, 0, wrap=lambda m: html.P(m, className="error"))
 def on_predict(service: FitService, text, key, degree):
     xs = parse_x_values(text)
@@ -363,7 +366,8 @@ def on_predict(service: FitService, text, key, degree):
     p = service.predict(ds, cols, split, degree, xs)
     head = html.Thead(html.Tr([html.Th(h) for h in ("x", "predicted y", "95 % confidence", "95 % prediction", "")]))
     rows = []
-    for i in range(p.x.size):
+    shown = min(p.x.size, PREDICT_ROWS_SHOWN)
+    for i in range(shown):
         flag = "outside the data range: extrapolation" if p.outside[i] else ""
         rows.append(
             html.Tr(
@@ -377,7 +381,14 @@ def on_predict(service: FitService, text, key, degree):
                 className="outside" if flag else "",
             )
         )
-    return html.Table([head, html.Tbody(rows)], className="table")
+    table = html.Table([head, html.Tbody(rows)], className="table")
+    if shown == p.x.size:
+        return table
+    note = html.P(
+        f"Showing the first {shown} of {p.x.size} predictions; the predictions CSV holds all of them.",
+        className="muted small",
+    )
+    return html.Div([table, note])
 
 
 # ----------------------------------------------------------------------------

@@ -134,3 +134,17 @@ def test_bad_data_path_fails_at_start(tmp_path):
     bad.write_text("")
     with pytest.raises(DegreescopeError):
         app.create_app(str(bad))
+
+
+def test_a_long_list_of_x_values_shows_a_short_table_and_says_so(sensor):
+    # 600 typed x values: the page shows the first rows only (a tall table made the page crawl); the CSV has all
+    service, info, cols = sensor
+    key = split(service, info.to_store(), mode="kfold")[12]
+    text = ", ".join(str(500 + i) for i in range(600))
+    out = cb.on_predict(service, text, key, 2)
+    flat = str(out.to_plotly_json())
+    assert "first 50 of 600" in flat
+    table = out.children[0]
+    assert len(table.children[1].children) == cb.PREDICT_ROWS_SHOWN
+    data, _ = cb.on_export(service, "csv", key, 2, [], text)
+    assert data["content"].count("\n") == 601  # header + every typed value
