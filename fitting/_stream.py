@@ -64,7 +64,7 @@ import numpy as np
 from . import _basis
 from ._errors import ColumnError, DegreescopeError, FitError, IntakeError
 from ._polyfit import qr_r
-from ._sweep import MAX_DEGREE, Block, DegreeSweep, Split, _span, block_factor, normalise_degrees, sweep_from_blocks
+from ._sweep import MAX_DEGREE, Block, DegreeSweep, Split, block_factor, cap_degrees, normalise_degrees, sweep_from_blocks
 
 __all__ = ["sweep_source", "fold_labels", "holdout_mask"]
 
@@ -713,12 +713,7 @@ def _finish(blocks, stats, degs, ncols, labeller, offset, scale, notes, xname, y
             cap = min(cap, d - 1)
     cap = max(cap, 0)
     if degs[-1] > cap:
-        dropped = [d for d in degs if d > cap]
-        notes.append(
-            f"Degrees {_span(dropped)} were left out: the smallest training set has only {cap + 1} distinct x "
-            f"values, so degree {cap} is the highest it can carry."
-        )
-        degs = [d for d in degs if d <= cap] or [cap]
+        degs = cap_degrees(degs, cap, notes)
         p = degs[-1] + 1
         blocks = {lab: _shrink(b, p, ncols) for lab, b in blocks.items()}
         ncols = p

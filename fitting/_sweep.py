@@ -44,7 +44,7 @@ from . import _basis
 from ._errors import FitError
 from ._polyfit import condition_of, qr_r, t_quantile, single_thread_blas, validate_xyw
 
-__all__ = ["DegreeSweep", "sweep_degrees", "Block", "Split", "sweep_from_blocks", "block_factor", "normalise_degrees"]
+__all__ = ["DegreeSweep", "sweep_degrees", "Block", "Split", "sweep_from_blocks", "block_factor", "normalise_degrees", "cap_degrees"]
 
 MAX_DEGREE = 20
 # thresholds for diagnoses: common practice, no source; chosen for this tool
@@ -376,14 +376,7 @@ def _sweep_degrees(x, y, *, degrees, folds, holdout, ordered, repeats, seed, wei
     parts, scheme = _partition(x, folds=folds, holdout=holdout, ordered=ordered, repeats=repeats, seed=seed)
 
     # cap the degrees by the distinct x values of the smallest training set
-    cap = _carryable_degree(x, parts)
-    if degs[-1] > cap:
-        dropped = [d for d in degs if d > cap]
-        notes.append(
-            f"Degrees {_span(dropped)} were left out: the smallest training set has only {cap + 1} distinct x "
-            f"values, so degree {cap} is the highest it can carry."
-        )
-        degs = [d for d in degs if d <= cap] or [cap]
+    degs = cap_degrees(degs, _carryable_degree(x, parts), notes)
 
     ncols = degs[-1] + 1
     offset, scale = _basis.domain_map(float(x.min()), float(x.max()))
@@ -434,6 +427,18 @@ def normalise_degrees(degrees) -> tuple[list[int], list[str]]:
         notes.append(f"Degrees above {MAX_DEGREE} were left out: double-precision data rarely support them.")
         degs = [d for d in degs if d <= MAX_DEGREE] or [MAX_DEGREE]
     return degs, notes
+
+
+def cap_degrees(degs: list[int], cap: int, notes: list[str]) -> list[int]:
+    """Degrees up to ``cap`` (what the smallest training set can carry); a note says what was left out."""
+    if degs[-1] <= cap:
+        return degs
+    dropped = [d for d in degs if d > cap]
+    notes.append(
+        f"Degrees {_span(dropped)} were left out: the smallest training set has only {cap + 1} distinct x "
+        f"values, so degree {cap} is the highest it can carry."
+    )
+    return [d for d in degs if d <= cap] or [cap]
 
 
 def _span(ds: list[int]) -> str:
