@@ -296,9 +296,10 @@ def _existing_file(path: str, what: str = "file") -> Path:
     return p
 
 
-def _read(path: Path, args) -> Any:
+def _read(path: Path, args, *, one_column: bool = False) -> Any:
+    reader = fitting.read_values if one_column else fitting.read_table
     try:
-        return fitting.read_table(path, max_bytes=int(args.size_limit_mb) * MIB, name=path.name)
+        return reader(path, max_bytes=int(args.size_limit_mb) * MIB, name=path.name)
     except fitting.FileTooLargeError as exc:
         size = getattr(exc, "size_bytes", None)
         if size is None:
@@ -623,7 +624,7 @@ def _load_model(path_text: str):
 def _predict_x_from_table(args, model) -> tuple[np.ndarray, str, int]:
     """The x values of ``--input`` (numeric column), the column name, and how many rows were left out."""
     path = _existing_file(args.input, "input file")
-    table = _read(path, args)
+    table = _read(path, args, one_column=True)  # a plain list of x values is a fine input here
     numeric = list(table.report.numeric_columns)
     col = args.x
     if col is None:

@@ -3,6 +3,7 @@
 Public surface (everything else is private and may change):
 
     read_table(source, *, max_bytes=DEFAULT_MAX_BYTES, name=None) -> Table
+    read_values(source, *, max_bytes=DEFAULT_MAX_BYTES, name=None) -> Table   # one column allowed
 
     fit_polynomial(x, y, degree, *, weights=None, through_origin=False) -> PolynomialFit
     sweep_degrees(x, y, *, degrees=range(0, 13), folds=10, holdout=None, ordered=False,
@@ -23,7 +24,7 @@ This package never imports the dashboard (``app``), dash or plotly.
 """
 
 from ._errors import ColumnError, DegreescopeError, FileTooLargeError, FitError, IntakeError, RankWarning
-from ._intake import DEFAULT_MAX_BYTES, MAX_COLUMNS, DropInfo, IntakeReport, Selection, Table, read_table
+from ._intake import DEFAULT_MAX_BYTES, MAX_COLUMNS, DropInfo, IntakeReport, Selection, Table, read_table, read_values
 from ._polyfit import PolynomialFit, fit_polynomial
 from ._stream import fold_labels, holdout_mask, sweep_source
 from ._sweep import DegreeSweep, sweep_degrees
@@ -47,6 +48,7 @@ __all__ = [
     "fold_labels",
     "holdout_mask",
     "read_table",
+    "read_values",
     "sweep_degrees",
     "sweep_source",
 ]

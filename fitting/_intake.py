@@ -142,7 +142,7 @@ import os
 import re
 import stat
 from collections import Counter
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 import numpy as np
@@ -154,6 +154,7 @@ import pyarrow.csv as pacsv
 from ._errors import ColumnError, FileTooLargeError, FitError, IntakeError
 
 __all__ = [
+    "read_values",
     "DEFAULT_MAX_BYTES",
     "MAX_COLUMNS",
     "DropInfo",
@@ -282,8 +283,12 @@ class IntakeReport:
         grouping = f", digit grouping {_mark_word(self.thousands)}" if self.thousands else ""
         out = [
             f"Read '{self.source_name}' as {self.encoding} text, "
-            f"{_DELIMITER_WORDS.get(self.delimiter, repr(self.delimiter))}-delimited, "
-            f"decimal mark {_mark_word(self.decimal)}{grouping}."
+            + (
+                f"{_DELIMITER_WORDS.get(self.delimiter, repr(self.delimiter))}-delimited, "
+                if self.delimiter
+                else "one column, "
+            )
+            + f"decimal mark {_mark_word(self.decimal)}{grouping}."
         ]
         where = f"Header on line {self.header_line}" if self.header_line else "No header line"
         cols = ", ".join(self.numeric_columns)
@@ -492,6 +497,45 @@ def read_table(source, *, max_bytes: int = DEFAULT_MAX_BYTES, name: str | None =
     rows are in the module docstring.
     """
     return _read(source, max_bytes=max_bytes, name=name, fast=True)
+
+
+class _OneColumnError(IntakeError):
+    """The text has a single column of values (no delimiter between fields)."""
+
+
+def read_values(source, *, max_bytes: int = DEFAULT_MAX_BYTES, name: str | None = None) -> Table:
+    """Read a table that may hold a single column of numbers, such as x values to predict at.
+
+    A file with two or more columns is read exactly as ``read_table`` reads it. A file
+    with one column of values is read by the same rules (encodings, comment lines,
+    header, decimal mark, missing markers, summary rows): every non-blank line gets a
+    filler field after a ``;`` for the parse, and the filler column, always the last,
+    is removed again. The report then names no delimiter (``""``).
+    """
+    try:
+        return read_table(source, max_bytes=max_bytes, name=name)
+    except _OneColumnError:
+        pass
+    data, display = _load(source, max_bytes, name)
+    text, label = _decode(data, display)
+    filled = "\n".join(ln if not ln.strip() else ln.rstrip("\r") + ";0" for ln in text.split("\n"))
+    try:
+        table = _parse(filled.encode("utf-8"), display, fast=True)
+    except _QuoteError as exc:
+        raise IntakeError(
+            f"'{display}' has a quote character (\") on line {exc.line} that opens a field which "
+            f"never closes; remove the stray quote or close it."
+        ) from None
+    filler = table.report.columns[-1]
+    report = replace(
+        table.report,
+        encoding=label,
+        delimiter="",
+        columns=table.report.columns[:-1],
+        numeric_columns=[c for c in table.report.numeric_columns if c != filler],
+        units={k: v for k, v in table.report.units.items() if k != filler},
+    )
+    return replace(table, frame=table.frame.drop(columns=[filler]), report=report)
 
 
 def _read(source, *, max_bytes: int, name: str | None, fast: bool) -> Table:
@@ -793,7 +837,7 @@ def _layout_from(lines: list[str], display: str) -> _Layout:
                 f"'{display}' holds no table: every line is blank or a comment; choose a file "
                 f"with a header line and rows of numbers."
             )
-        raise IntakeError(
+        raise _OneColumnError(
             f"'{display}' has only one column of values (no comma, semicolon, tab or '|' "
             f"between fields); a curve needs two numeric columns, so export x and y as "
             f"separate columns."

@@ -316,6 +316,27 @@ def test_predict_input_file_to_csv_is_neutralised_and_input_untouched(tmp_path):
     assert sorted(p.name for p in tmp_path.iterdir()) == ["at.csv", "m.json", "pred.csv"]
 
 
+def test_predict_input_may_be_a_single_column_of_x_values(tmp_path):
+    # A plain list of x values, with a header, a comment and a missing marker; and one in UTF-16 with a BOM.
+    model = tmp_path / "m.json"
+    assert run("fit", SENSOR, "--degree", 2, "--save-model", model)[0] == 0
+    fitted = json.loads(model.read_text())
+    plain = tmp_path / "xs.csv"
+    plain.write_text("# x values to convert\noutput (mV)\n450\nNA\n900\n1500\n")
+    wide = tmp_path / "xs_utf16.csv"
+    wide.write_bytes("Ausgang (µV)\r\n450.5\r\n−900\r\n".encode("utf-16"))
+    got, _ = run_json("predict", model, "--input", plain)
+    rows = got["rows"]
+    xs = [r["x"] for r in rows]
+    assert xs == [450.0, 900.0, 1500.0]  # the NA row is left out
+    # numpy's Polynomial evaluation of the saved power-basis coefficients as the reference
+    ref = np.polynomial.Polynomial(fitted["coefficients"])(np.array(xs))
+    assert np.allclose([r["prediction"] for r in rows], ref, rtol=1e-9)
+    got, _ = run_json("predict", model, "--input", wide)
+    rows = got["rows"]
+    assert [r["x"] for r in rows] == [450.5, -900.0]  # the unicode minus is a minus
+
+
 def test_neutralise_cell_rules():
     from app._atomic import neutralise_cell
 

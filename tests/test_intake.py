@@ -583,3 +583,20 @@ def test_a_fifo_is_refused_without_waiting_for_a_writer(tmp_path):
     os.mkfifo(fifo)  # open() on it would block until something writes
     with pytest.raises(IntakeError, match="not a regular file"):
         read_table(fifo)
+
+
+def test_read_values_takes_one_column_and_leaves_tables_to_read_table():
+    from fitting import read_table, read_values
+
+    one = read_values("# x values\nx (mV)\n450\nn/a\n−900\n1.5e3\nTotal\n".encode("utf-8"), name="xs.csv")
+    assert one.report.columns == ["x (mV)"] and one.report.numeric_columns == ["x (mV)"]
+    assert one.report.units == {"x (mV)": "mV"} and one.report.delimiter == ""
+    values = one.frame["x (mV)"].to_numpy()
+    assert values[0] == 450 and np.isnan(values[1]) and values[2] == -900 and values[3] == 1500
+    assert "one column" in one.report.summary_lines()[0]
+    assert sum(d.count for d in one.report.dropped.values()) == 1  # the trailing "Total" row
+    # a real table is read exactly as read_table reads it
+    two = b"a,b\n1,2\n3,4\n"
+    assert read_values(two).frame.equals(read_table(two).frame)
+    with pytest.raises(IntakeError):
+        read_values(b"")
