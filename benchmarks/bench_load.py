@@ -270,16 +270,61 @@ def percentile(values: list[float], q: float) -> float:
     return s[idx]
 
 
-def run_load(sessions: int = 50, degrees=(1, 2, 3), threads: int = 8, timeout: float = 120.0) -> dict:
-    """Start the dashboard on a free loopback port, run the sessions, stop it, return the figures."""
+class _ServerProcess:
+    """`degreescope serve` in its own process on a free loopback port, so the load's client
+    threads do not share the server's interpreter (and its GIL)."""
+
+    def __init__(self, threads: int):
+        import socket
+        import subprocess
+
+        with socket.socket() as sock:
+            sock.bind(("127.0.0.1", 0))
+            self.port = sock.getsockname()[1]
+        root = Path(__file__).resolve().parent.parent
+        self.proc = subprocess.Popen(
+            [sys.executable, "-m", "app.cli", "serve", "--port", str(self.port), "--threads", str(threads)],
+            cwd=root, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
+        )
+        self.guard = None
+        deadline = time.monotonic() + 60
+        while time.monotonic() < deadline:
+            try:
+                conn = http.client.HTTPConnection("127.0.0.1", self.port, timeout=2)
+                conn.request("GET", "/_dash-dependencies", headers={"Host": f"127.0.0.1:{self.port}"})
+                if conn.getresponse().status == 200:
+                    return
+            except OSError:
+                time.sleep(0.2)
+        self.stop()
+        raise RuntimeError("the dashboard server did not start within 60 s")
+
+    def stop(self) -> None:
+        self.proc.terminate()
+        try:
+            self.proc.wait(timeout=10)
+        except Exception:  # noqa: BLE001 - make sure it is gone
+            self.proc.kill()
+
+
+def run_load(
+    sessions: int = 50, degrees=(1, 2, 3), threads: int = 8, timeout: float = 120.0, *, separate_process: bool = False
+) -> dict:
+    """Start the dashboard on a free loopback port, run the sessions, stop it, return the figures.
+
+    ``separate_process`` runs the server as `degreescope serve` in a child process (what a
+    user runs); otherwise it runs in this process, sharing the interpreter with the clients.
+    """
     import logging
 
-    from app import create_app
-    from app.server import make_server
-
     logging.getLogger("waitress.queue").setLevel(logging.ERROR)  # "Task queue depth" notes are expected here
-    dash_app = create_app(None)
-    server = make_server(dash_app, host="127.0.0.1", port=0, threads=threads).start()
+    if separate_process:
+        server = _ServerProcess(threads)
+    else:
+        from app import create_app
+        from app.server import make_server
+
+        server = make_server(create_app(None), host="127.0.0.1", port=0, threads=threads).start()
     result = Result()
     t_start = time.perf_counter()
     deadline = time.monotonic() + timeout
@@ -325,7 +370,8 @@ def run_load(sessions: int = 50, degrees=(1, 2, 3), threads: int = 8, timeout: f
             k: {"n": len(v), "p50_ms": 1000 * percentile(v, 50), "p95_ms": 1000 * percentile(v, 95)}
             for k, v in sorted(result.by_kind.items())
         },
-        "refused_by_guard": dict(server.guard.refused),
+        "refused_by_guard": dict(server.guard.refused) if server.guard is not None else None,
+        "server": "separate process" if separate_process else "in this process",
     }
 
 
@@ -336,12 +382,13 @@ def main(argv=None) -> int:
     ap.add_argument("--threads", type=int, default=8, help="server worker threads (default: 8, as `serve`)")
     ap.add_argument("--timeout", type=float, default=300.0, help="stop after this many seconds (default: 300)")
     ap.add_argument("--json", action="store_true")
+    ap.add_argument("--in-process", action="store_true", help="run the server in this process, beside the clients")
     a = ap.parse_args(argv)
-    out = run_load(a.sessions, a.degrees, a.threads, a.timeout)
+    out = run_load(a.sessions, a.degrees, a.threads, a.timeout, separate_process=not a.in_process)
     if a.json:
         print(json.dumps(out, indent=2))
     else:
-        print(f"sessions {out['sessions']}, server threads {out['server_threads']}, requests {out['requests']} "
+        print(f"server: {out['server']}; sessions {out['sessions']}, server threads {out['server_threads']}, requests {out['requests']} "
               f"in {out['wall_seconds']:.1f} s ({out['requests_per_second']:.0f} per second)")
         print(f"HTTP status counts: {out['status']}; 5xx: {out['server_errors_5xx']}")
         print(f"errors: {len(out['errors'])}; cross-talk: {len(out['crosstalk'])}; unfinished: {out['unfinished_sessions']}")
