@@ -64,7 +64,7 @@ import numpy as np
 from . import _basis
 from ._errors import ColumnError, DegreescopeError, FitError, IntakeError
 from ._polyfit import qr_r
-from ._sweep import MAX_DEGREE, Block, DegreeSweep, Split, block_factor, cap_degrees, normalise_degrees, sweep_from_blocks
+from ._sweep import MAX_DEGREE, Block, DegreeSweep, Split, block_factor, cap_degrees, holdout_fraction, normalise_degrees, sweep_from_blocks
 
 __all__ = ["sweep_source", "fold_labels", "holdout_mask"]
 
@@ -151,13 +151,7 @@ def _make_labeller(folds, holdout, seed) -> _Labeller:
     except (TypeError, ValueError):
         raise FitError(f"The seed must be a whole number, not {seed!r}.") from None
     if holdout is not None:
-        try:
-            frac = float(holdout)
-        except (TypeError, ValueError):
-            raise FitError(f"The holdout must be a fraction between 0 and 1 (e.g. 0.25), not {holdout!r}.") from None
-        if not (0.0 < frac < 1.0):
-            raise FitError(f"The holdout must be a fraction between 0 and 1 (e.g. 0.25), not {holdout!r}.")
-        return _Labeller("holdout", 2, frac, seed)
+        return _Labeller("holdout", 2, holdout_fraction(holdout), seed)
     if isinstance(folds, bool) or np.ndim(folds) != 0:
         raise FitError("For a file source, folds must be a whole number; fold labels per row need the in-memory sweep.")
     try:

@@ -44,7 +44,7 @@ from . import _basis
 from ._errors import FitError
 from ._polyfit import condition_of, qr_r, t_quantile, single_thread_blas, validate_xyw
 
-__all__ = ["DegreeSweep", "sweep_degrees", "Block", "Split", "sweep_from_blocks", "block_factor", "normalise_degrees", "cap_degrees"]
+__all__ = ["DegreeSweep", "sweep_degrees", "Block", "Split", "sweep_from_blocks", "block_factor", "normalise_degrees", "cap_degrees", "holdout_fraction"]
 
 MAX_DEGREE = 20
 # thresholds for diagnoses: common practice, no source; chosen for this tool
@@ -228,6 +228,17 @@ class DegreeSweep:
 # splitting
 
 
+def holdout_fraction(holdout) -> float:
+    """The holdout as a test fraction strictly between 0 and 1; raise FitError otherwise."""
+    try:
+        frac = float(holdout)
+    except (TypeError, ValueError):
+        frac = float("nan")
+    if not (0.0 < frac < 1.0):
+        raise FitError(f"The holdout must be a fraction between 0 and 1 (e.g. 0.25), not {holdout!r}.")
+    return frac
+
+
 def _partition(x, *, folds, holdout, ordered, repeats, seed):
     """Return (labels_per_partition, splits_per_partition, scheme) for the rows.
 
@@ -236,12 +247,7 @@ def _partition(x, *, folds, holdout, ordered, repeats, seed):
     """
     n = x.size
     if holdout is not None:
-        try:
-            frac = float(holdout)
-        except (TypeError, ValueError):
-            raise FitError(f"The holdout must be a fraction between 0 and 1 (e.g. 0.25), not {holdout!r}.") from None
-        if not (0.0 < frac < 1.0):
-            raise FitError(f"The holdout must be a fraction between 0 and 1 (e.g. 0.25), not {holdout!r}.")
+        frac = holdout_fraction(holdout)
         n_test = int(math.ceil(frac * n))
         if n_test < 1 or n - n_test < 2:
             raise FitError(
