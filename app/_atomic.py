@@ -69,9 +69,7 @@ def write_text_atomic(path: str | os.PathLike[str], text: str, *, encoding: str 
     return write_bytes_atomic(path, text.encode(encoding))
 
 
-def write_csv_atomic(
-    path: str | os.PathLike[str], header: Sequence[str], rows: Iterable[Sequence[object]]
-) -> Path:
+def write_csv_atomic(path: str | os.PathLike[str], header: Sequence[str], rows: Iterable[Sequence[object]]) -> Path:
     """Write a CSV file atomically; every text cell (header included) is neutralised."""
     buf = io.StringIO()
     writer = csv.writer(buf, lineterminator="\n")

@@ -84,7 +84,9 @@ def from_key(key: dict) -> tuple[str, Columns, SplitSettings]:
     if not key:
         raise DegreescopeError("The charts are not ready yet; wait a moment or upload a file.")
     cols = Columns(key["x"], key["y"], key.get("weights"), key.get("group"))
-    split = SplitSettings(mode=key["mode"], holdout=float(key["holdout"]), folds=int(key["folds"]), seed=int(key["seed"]))
+    split = SplitSettings(
+        mode=key["mode"], holdout=float(key["holdout"]), folds=int(key["folds"]), seed=int(key["seed"])
+    )
     return key["dataset"], cols, split
 
 
@@ -94,7 +96,9 @@ def url_query(key: dict, degree) -> str:
         q["w"] = key["weights"]
     if key.get("group"):
         q["g"] = key["group"]
-    q.update(mode=key["mode"], holdout=f"{round(float(key['holdout']) * 100)}", k=str(key["folds"]), seed=str(key["seed"]))
+    q.update(
+        mode=key["mode"], holdout=f"{round(float(key['holdout']) * 100)}", k=str(key["folds"]), seed=str(key["seed"])
+    )
     if degree is not None:
         q["degree"] = str(int(degree))
     return "?" + urlencode(q)
@@ -317,7 +321,12 @@ def stats_table(model) -> html.Table:
     ]
     head = html.Thead(html.Tr([html.Th(""), html.Th("training (the fit)"), html.Th("test")]))
     return html.Table(
-        [head, html.Tbody([html.Tr([html.Th(a), html.Td(b, className="num"), html.Td(c, className="num")]) for a, b, c in rows])],
+        [
+            head,
+            html.Tbody(
+                [html.Tr([html.Th(a), html.Td(b, className="num"), html.Td(c, className="num")]) for a, b, c in rows]
+            ),
+        ],
         className="table stats-table",
     )
 
@@ -403,7 +412,11 @@ def on_export(service: FitService, which: str, key, degree, bands, text):
     model = service.model_view(ds, cols, split, degree)
     stem = f"degreescope-{_slug(cols.y)}-degree{model.fit.degree}"
     if which == "model":
-        return {"content": exports.model_json(model.fit), "filename": f"{stem}.model.json", "type": "application/json"}, ""
+        return {
+            "content": exports.model_json(model.fit),
+            "filename": f"{stem}.model.json",
+            "type": "application/json",
+        }, ""
     if which == "csv":
         xs = parse_x_values(text)
         if xs.size:
@@ -416,7 +429,9 @@ def on_export(service: FitService, which: str, key, degree, bands, text):
     view = service.split_view(ds, cols, split)
     dv = service.degree_view(ds, cols, split, degree)
     info = service.info(ds)
-    report = exports.html_report(info, view, dv, model, figures.fit_figure(view, dv, bands), figures.error_figure(view, dv))
+    report = exports.html_report(
+        info, view, dv, model, figures.fit_figure(view, dv, bands), figures.error_figure(view, dv)
+    )
     return {"content": report, "filename": f"{stem}.report.html", "type": "text/html"}, ""
 
 
@@ -435,14 +450,17 @@ def _slug(text: str) -> str:
 # SETTLE_MS, so that a run of key presses or a drag keeps the server and the browser free
 # for the chart updates.
 SETTLE_MS = 200
-SETTLE_JS = """
+SETTLE_JS = (
+    """
 async function(value) {
     const me = (window.__degreeSettle = (window.__degreeSettle || 0) + 1);
     await new Promise(function (r) { setTimeout(r, %d); });
     if (me !== window.__degreeSettle) { return window.dash_clientside.no_update; }
     return value;
 }
-""" % SETTLE_MS
+"""
+    % SETTLE_MS
+)
 
 IMAGE_JS = """
 function(fitPng, fitSvg, errPng, errSvg) {

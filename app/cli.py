@@ -134,7 +134,9 @@ def build_parser() -> argparse.ArgumentParser:
 
     # serve
     p = add("serve", "Run the dashboard in a local browser tab.")
-    p.add_argument("file", nargs="?", metavar="FILE", help="data to open first (default: the invented sensor calibration sample)")
+    p.add_argument(
+        "file", nargs="?", metavar="FILE", help="data to open first (default: the invented sensor calibration sample)"
+    )
     p.add_argument("--host", default="127.0.0.1", help="address to bind (default: 127.0.0.1, this machine only)")
     p.add_argument("--port", type=_port, default=8050, help="port (default: 8050; 0 picks a free one)")
     p.add_argument("--threads", type=_positive_int, default=8, help="worker threads (default: 8)")
@@ -150,7 +152,9 @@ def build_parser() -> argparse.ArgumentParser:
         metavar="NAME",
         help="also accept requests addressed to this host name (repeatable); others are refused",
     )
-    p.add_argument("--upload-limit-mb", type=_positive_int, default=128, metavar="MB", help="largest upload in MiB (default: 128)")
+    p.add_argument(
+        "--upload-limit-mb", type=_positive_int, default=128, metavar="MB", help="largest upload in MiB (default: 128)"
+    )
     p.set_defaults(func=_cmd_serve)
 
     # fit
@@ -172,18 +176,35 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--x", metavar="COL", help="x column (default: the first numeric column)")
     p.add_argument("--y", metavar="COL", help="y column (default: the next numeric column)")
     p.add_argument("--weights", metavar="COL", help="column of positive weights (in-memory sweeps only)")
-    p.add_argument("--max-degree", type=_nonneg_int, default=DEFAULT_MAX_DEGREE, metavar="D",
-                   help=f"try degrees 0 to D (default: {DEFAULT_MAX_DEGREE})")
+    p.add_argument(
+        "--max-degree",
+        type=_nonneg_int,
+        default=DEFAULT_MAX_DEGREE,
+        metavar="D",
+        help=f"try degrees 0 to D (default: {DEFAULT_MAX_DEGREE})",
+    )
     split = p.add_mutually_exclusive_group()
     split.add_argument("--folds", type=_positive_int, metavar="K", help="K-fold cross-validation (default: 10 folds)")
-    split.add_argument("--holdout", type=_finite_float, metavar="FRACTION", help="hold out this fraction instead, e.g. 0.25")
-    p.add_argument("--ordered", action="store_true", help="with --holdout: hold out the highest x values (extrapolation check)")
-    p.add_argument("--repeats", type=_positive_int, default=1, metavar="R", help="repeat the shuffled split R times (default: 1)")
+    split.add_argument(
+        "--holdout", type=_finite_float, metavar="FRACTION", help="hold out this fraction instead, e.g. 0.25"
+    )
+    p.add_argument(
+        "--ordered", action="store_true", help="with --holdout: hold out the highest x values (extrapolation check)"
+    )
+    p.add_argument(
+        "--repeats", type=_positive_int, default=1, metavar="R", help="repeat the shuffled split R times (default: 1)"
+    )
     p.add_argument("--group", metavar="COL", help="keep rows with the same value here in the same fold (e.g. a batch)")
-    p.add_argument("--seed", type=int, default=0, metavar="S", help="shuffle seed; the same seed gives the same split (default: 0)")
+    p.add_argument(
+        "--seed", type=int, default=0, metavar="S", help="shuffle seed; the same seed gives the same split (default: 0)"
+    )
     p.add_argument("--json", action="store_true", help="write one JSON object to stdout")
-    p.add_argument("--engine", choices=("numpy", "dask"), default=None,
-                   help="for large data: read in chunks with numpy, or with dask (default: numpy)")
+    p.add_argument(
+        "--engine",
+        choices=("numpy", "dask"),
+        default=None,
+        help="for large data: read in chunks with numpy, or with dask (default: numpy)",
+    )
     p.add_argument("--scheduler", metavar="ADDRESS", help="with --engine dask: a dask.distributed scheduler address")
     intake_options(p)
     p.set_defaults(func=_cmd_sweep)
@@ -194,7 +215,11 @@ def build_parser() -> argparse.ArgumentParser:
     where = p.add_mutually_exclusive_group(required=True)
     where.add_argument("--at", type=_finite_float, nargs="+", metavar="X", help="x values to predict at")
     where.add_argument("--input", metavar="FILE", help="a table whose x column to predict at")
-    p.add_argument("--x", metavar="COL", help="with --input: the x column (default: the model's x name, else the first numeric column)")
+    p.add_argument(
+        "--x",
+        metavar="COL",
+        help="with --input: the x column (default: the model's x name, else the first numeric column)",
+    )
     p.add_argument("--level", type=_finite_float, default=0.95, help="interval level between 0 and 1 (default: 0.95)")
     p.add_argument("--json", action="store_true", help="write one JSON object to stdout")
     p.add_argument("--output", metavar="PATH.csv", help="also write the predictions to this CSV file")
@@ -252,13 +277,17 @@ def _table(headers: Sequence[str], rows: Sequence[Sequence[Any]], *, digits: int
     """A plain aligned text table: text columns to the left, numbers to the right."""
     cells = [[_fmt(v, digits) for v in row] for row in rows]
     numeric = [
-        all(isinstance(row[j], (int, float, np.integer, np.floating)) or row[j] is None for row in rows) if rows else False
+        all(isinstance(row[j], (int, float, np.integer, np.floating)) or row[j] is None for row in rows)
+        if rows
+        else False
         for j in range(len(headers))
     ]
     widths = [max([len(h)] + [len(r[j]) for r in cells]) for j, h in enumerate(headers)]
 
     def line(values):
-        return "  ".join(v.rjust(w) if numeric[j] else v.ljust(w) for j, (v, w) in enumerate(zip(values, widths))).rstrip()
+        return "  ".join(
+            v.rjust(w) if numeric[j] else v.ljust(w) for j, (v, w) in enumerate(zip(values, widths, strict=False))
+        ).rstrip()
 
     out = [line(headers), line(["-" * w for w in widths])]
     out += [line(r) for r in cells]
@@ -369,8 +398,11 @@ def _cmd_fit(args) -> int:
     warnings_all = list(fit.warnings)
     saved = None
     if args.save_model:
-        saved = _write_output(args.save_model, lambda p: write_text_atomic(p, json.dumps(_clean(model), allow_nan=False, indent=2) + "\n"),
-                              inputs=[path])
+        saved = _write_output(
+            args.save_model,
+            lambda p: write_text_atomic(p, json.dumps(_clean(model), allow_nan=False, indent=2) + "\n"),
+            inputs=[path],
+        )
 
     if args.json:
         out = dict(model)
@@ -390,7 +422,10 @@ def _cmd_fit(args) -> int:
         return 0
 
     names = ["constant"] + [f"x^{k}" if k > 1 else "x" for k in range(1, fit.degree + 1)]
-    rows = [[names[k], float(c), float(se)] for k, (c, se) in enumerate(zip(fit.coefficients, fit.standard_errors))]
+    rows = [
+        [names[k], float(c), float(se)]
+        for k, (c, se) in enumerate(zip(fit.coefficients, fit.standard_errors, strict=False))
+    ]
     if fit.through_origin:
         rows = rows[1:]
     lines = [
@@ -458,7 +493,9 @@ def _wants_streaming(args) -> bool:
     if p.is_dir() or p.suffix.lower() in (".parquet", ".pq"):
         return True
     try:
-        return p.is_file() and p.stat().st_size > STREAM_ABOVE_BYTES and p.suffix.lower() in (".csv", ".txt", ".tsv", "")
+        return (
+            p.is_file() and p.stat().st_size > STREAM_ABOVE_BYTES and p.suffix.lower() in (".csv", ".txt", ".tsv", "")
+        )
     except OSError:
         return False
 
@@ -495,8 +532,16 @@ def _cmd_sweep(args) -> int:
     folds = args.folds if args.folds is not None else 10
 
     if _wants_streaming(args):
-        unsupported = [o for o, v in (("--weights", args.weights), ("--group", args.group), ("--ordered", args.ordered),
-                                      ("--repeats", args.repeats != 1)) if v]
+        unsupported = [
+            o
+            for o, v in (
+                ("--weights", args.weights),
+                ("--group", args.group),
+                ("--ordered", args.ordered),
+                ("--repeats", args.repeats != 1),
+            )
+            if v
+        ]
         if unsupported:
             raise UsageError(
                 f"{', '.join(unsupported)} {'is' if len(unsupported) == 1 else 'are'} not available when the data are read "
@@ -562,7 +607,15 @@ def _cmd_sweep(args) -> int:
         x_name, y_name = sel.x_name, sel.y_name
 
     d = sweep.to_dict()
-    d.update(command="sweep", file=args.file, x=x_name, y=y_name, rows_used=rows_used, rows_dropped=rows_dropped, intake=intake)
+    d.update(
+        command="sweep",
+        file=args.file,
+        x=x_name,
+        y=y_name,
+        rows_used=rows_used,
+        rows_dropped=rows_dropped,
+        intake=intake,
+    )
     warnings_all = list(d.get("warnings", []))
     if args.json:
         _emit_json(d)
@@ -633,7 +686,9 @@ def _predict_x_from_table(args, model) -> tuple[np.ndarray, str, int]:
         raise UsageError(f"{args.input!r} has no numeric column to predict at")
     if col not in numeric:
         where = "has no column" if col not in table.report.columns else "holds text, not numbers, in column"
-        raise UsageError(f"{args.input!r} {where} {col!r}; numeric columns: {', '.join(repr(c) for c in numeric) or 'none'}")
+        raise UsageError(
+            f"{args.input!r} {where} {col!r}; numeric columns: {', '.join(repr(c) for c in numeric) or 'none'}"
+        )
     xs = table.frame[col].to_numpy(dtype=np.float64)
     keep = np.isfinite(xs)
     return xs[keep], col, int((~keep).sum())
@@ -681,15 +736,29 @@ def _cmd_predict(args) -> int:
     written = None
     if args.output:
         pct = f"{args.level * 100:g}%"
-        header = [x_label, "prediction", f"confidence lower {pct}", f"confidence upper {pct}",
-                  f"prediction lower {pct}", f"prediction upper {pct}", "outside fitted range"]
+        header = [
+            x_label,
+            "prediction",
+            f"confidence lower {pct}",
+            f"confidence upper {pct}",
+            f"prediction lower {pct}",
+            f"prediction upper {pct}",
+            "outside fitted range",
+        ]
 
         def cell(v):  # numbers stay numbers (csv writes repr); undefined ones become empty cells
             return "" if isinstance(v, float) and not math.isfinite(v) else v
 
         body = [
-            [cell(r["x"]), cell(r["prediction"]), cell(r["confidence_lower"]), cell(r["confidence_upper"]),
-             cell(r["prediction_lower"]), cell(r["prediction_upper"]), "yes" if r["outside_range"] else "no"]
+            [
+                cell(r["x"]),
+                cell(r["prediction"]),
+                cell(r["confidence_lower"]),
+                cell(r["confidence_upper"]),
+                cell(r["prediction_lower"]),
+                cell(r["prediction_upper"]),
+                "yes" if r["outside_range"] else "no",
+            ]
             for r in rows
         ]
         inputs = [Path(args.model)] + ([Path(args.input)] if args.input else [])
@@ -713,14 +782,24 @@ def _cmd_predict(args) -> int:
     else:
         pct = f"{args.level * 100:g} %"
         table_rows = [
-            [r["x"], r["prediction"], r["confidence_lower"], r["confidence_upper"], r["prediction_lower"],
-             r["prediction_upper"], "OUTSIDE" if r["outside_range"] else ""]
+            [
+                r["x"],
+                r["prediction"],
+                r["confidence_lower"],
+                r["confidence_upper"],
+                r["prediction_lower"],
+                r["prediction_upper"],
+                "OUTSIDE" if r["outside_range"] else "",
+            ]
             for r in rows
         ]
         lines = [
             f"Predictions of {model.y_name or 'y'} from {args.model} (degree {model.degree}, {pct} intervals)",
             "",
-            _table([x_label, "prediction", "conf. lower", "conf. upper", "pred. lower", "pred. upper", "fitted range"], table_rows),
+            _table(
+                [x_label, "prediction", "conf. lower", "conf. upper", "pred. lower", "pred. upper", "fitted range"],
+                table_rows,
+            ),
         ]
         if written:
             lines += ["", f"Predictions written to {written}"]

@@ -160,8 +160,11 @@ def html_report(
         ["adjusted R² (fit)", _fmt(fit.adjusted_r_squared, 8)],
         ["RMSE (fit rows)", _fmt(fit.rmse, 6)],
         ["residual SD", _fmt(fit.residual_sd, 6)],
-        ["test RMSE (" + view.split_label + ")", _fmt(model.test_rmse, 6)
-         + (f" ± {_fmt(model.test_rmse_se, 3)}" if math.isfinite(model.test_rmse_se) else "")],
+        [
+            "test RMSE (" + view.split_label + ")",
+            _fmt(model.test_rmse, 6)
+            + (f" ± {_fmt(model.test_rmse_se, 3)}" if math.isfinite(model.test_rmse_se) else ""),
+        ],
         ["test R²", _fmt(model.test_r2, 8)],
         ["rows in the fit", f"{fit.n:,}"],
         ["degrees of freedom", str(fit.dof)],

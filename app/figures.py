@@ -40,16 +40,30 @@ PREDICTION = "prediction"
 
 def _base_layout(title: str, x_title: str, y_title: str, caption: str) -> dict:
     return dict(
-        title=dict(text=title, x=0.01, xanchor="left", y=0.975, yref="container", yanchor="top",
-                   font=dict(size=17, color=INK)),
+        title=dict(
+            text=title, x=0.01, xanchor="left", y=0.975, yref="container", yanchor="top", font=dict(size=17, color=INK)
+        ),
         font=dict(family=FONT, size=13, color=INK),
         paper_bgcolor=PAPER,
         plot_bgcolor="#ffffff",
         margin=dict(l=72, r=24, t=96, b=100),
-        xaxis=dict(title=dict(text=x_title), gridcolor=GRID, zeroline=False, showline=True, linecolor="#9aa3a8", mirror=True),
-        yaxis=dict(title=dict(text=y_title), gridcolor=GRID, zeroline=False, showline=True, linecolor="#9aa3a8", mirror=True),
-        legend=dict(orientation="h", yanchor="bottom", y=1.015, xanchor="left", x=0, font=dict(size=12),
-                    bgcolor="rgba(0,0,0,0)", itemwidth=30, traceorder="normal"),
+        xaxis=dict(
+            title=dict(text=x_title), gridcolor=GRID, zeroline=False, showline=True, linecolor="#9aa3a8", mirror=True
+        ),
+        yaxis=dict(
+            title=dict(text=y_title), gridcolor=GRID, zeroline=False, showline=True, linecolor="#9aa3a8", mirror=True
+        ),
+        legend=dict(
+            orientation="h",
+            yanchor="bottom",
+            y=1.015,
+            xanchor="left",
+            x=0,
+            font=dict(size=12),
+            bgcolor="rgba(0,0,0,0)",
+            itemwidth=30,
+            traceorder="normal",
+        ),
         annotations=[_caption(caption)],
         uirevision="keep",
     )
@@ -128,8 +142,13 @@ def fit_figure(view: SplitView, dv: DegreeView, bands=(CONFIDENCE,)) -> go.Figur
             y=view.train_y,
             mode="markers",
             name="training",
-            marker=dict(symbol="circle", size=7 if small else 4, color=TRAIN, opacity=0.85 if small else 0.5,
-                        line=dict(width=0.6, color="#ffffff") if small else dict(width=0)),
+            marker=dict(
+                symbol="circle",
+                size=7 if small else 4,
+                color=TRAIN,
+                opacity=0.85 if small else 0.5,
+                line=dict(width=0.6, color="#ffffff") if small else dict(width=0),
+            ),
             hovertemplate="x %{x:.6g}<br>y %{y:.6g}<extra>training</extra>",
         )
     )
@@ -139,26 +158,75 @@ def fit_figure(view: SplitView, dv: DegreeView, bands=(CONFIDENCE,)) -> go.Figur
             y=view.test_y,
             mode="markers",
             name="test (held out)",
-            marker=dict(symbol="diamond-open", size=9 if small else 5, color=TEST, line=dict(width=2 if small else 1.2)),
+            marker=dict(
+                symbol="diamond-open", size=9 if small else 5, color=TEST, line=dict(width=2 if small else 1.2)
+            ),
             visible=True if view.has_test_points else "legendonly",
             showlegend=view.has_test_points,
             hovertemplate="x %{x:.6g}<br>y %{y:.6g}<extra>test</extra>",
         )
     )
     g = _list(view.grid)
-    traces.append(_line(x=g, y=_list(dv.pred_lo), mode="lines", line=dict(width=0), hoverinfo="skip",
-                             showlegend=False, visible=PREDICTION in bands, name="prediction band (lower)"))
-    traces.append(_line(x=g, y=_list(dv.pred_hi), mode="lines", line=dict(width=0), fill="tonexty",
-                             fillcolor=PRED_FILL, hoverinfo="skip", visible=PREDICTION in bands,
-                             name="95 % prediction"))
-    traces.append(_line(x=g, y=_list(dv.conf_lo), mode="lines", line=dict(width=0), hoverinfo="skip",
-                             showlegend=False, visible=CONFIDENCE in bands, name="confidence band (lower)"))
-    traces.append(_line(x=g, y=_list(dv.conf_hi), mode="lines", line=dict(width=0), fill="tonexty",
-                             fillcolor=CONF_FILL, hoverinfo="skip", visible=CONFIDENCE in bands,
-                             name="95 % confidence"))
-    traces.append(_line(x=g, y=_list(dv.curve), mode="lines", name=f"degree {dv.degree} fit",
-                             line=dict(color=CURVE, width=2.6),
-                             hovertemplate="x %{x:.6g}<br>fit %{y:.6g}<extra></extra>"))
+    traces.append(
+        _line(
+            x=g,
+            y=_list(dv.pred_lo),
+            mode="lines",
+            line=dict(width=0),
+            hoverinfo="skip",
+            showlegend=False,
+            visible=PREDICTION in bands,
+            name="prediction band (lower)",
+        )
+    )
+    traces.append(
+        _line(
+            x=g,
+            y=_list(dv.pred_hi),
+            mode="lines",
+            line=dict(width=0),
+            fill="tonexty",
+            fillcolor=PRED_FILL,
+            hoverinfo="skip",
+            visible=PREDICTION in bands,
+            name="95 % prediction",
+        )
+    )
+    traces.append(
+        _line(
+            x=g,
+            y=_list(dv.conf_lo),
+            mode="lines",
+            line=dict(width=0),
+            hoverinfo="skip",
+            showlegend=False,
+            visible=CONFIDENCE in bands,
+            name="confidence band (lower)",
+        )
+    )
+    traces.append(
+        _line(
+            x=g,
+            y=_list(dv.conf_hi),
+            mode="lines",
+            line=dict(width=0),
+            fill="tonexty",
+            fillcolor=CONF_FILL,
+            hoverinfo="skip",
+            visible=CONFIDENCE in bands,
+            name="95 % confidence",
+        )
+    )
+    traces.append(
+        _line(
+            x=g,
+            y=_list(dv.curve),
+            mode="lines",
+            name=f"degree {dv.degree} fit",
+            line=dict(color=CURVE, width=2.6),
+            hovertemplate="x %{x:.6g}<br>fit %{y:.6g}<extra></extra>",
+        )
+    )
     layout = _base_layout(fit_title(view, dv.degree), plot_text(view.x_label), plot_text(view.y_label), dv.caption)
     # y range from the points (not from a wild curve), with room
     ys = np.concatenate([view.train_y, view.test_y])
@@ -170,17 +238,49 @@ def fit_figure(view: SplitView, dv: DegreeView, bands=(CONFIDENCE,)) -> go.Figur
     shapes, notes = [], []
     for a, b in ((float(view.grid[0]), tlo), (thi, float(view.grid[-1]))):
         if b > a:
-            shapes.append(dict(type="rect", xref="x", yref="paper", x0=a, x1=b, y0=0, y1=1, fillcolor=EXTRAP_FILL,
-                               line=dict(width=0), layer="below"))
-            notes.append(dict(text="extrapolation", xref="x", yref="paper", x=(a + b) / 2, y=0.98, yanchor="top",
-                              showarrow=False, textangle=-90, font=dict(size=11, color="#9a5208")))
+            shapes.append(
+                dict(
+                    type="rect",
+                    xref="x",
+                    yref="paper",
+                    x0=a,
+                    x1=b,
+                    y0=0,
+                    y1=1,
+                    fillcolor=EXTRAP_FILL,
+                    line=dict(width=0),
+                    layer="below",
+                )
+            )
+            notes.append(
+                dict(
+                    text="extrapolation",
+                    xref="x",
+                    yref="paper",
+                    x=(a + b) / 2,
+                    y=0.98,
+                    yanchor="top",
+                    showarrow=False,
+                    textangle=-90,
+                    font=dict(size=11, color="#9a5208"),
+                )
+            )
     layout["shapes"] = shapes
     layout["annotations"] = layout["annotations"] + notes
     if view.sampled:
         layout["annotations"].append(
-            dict(text=f"showing a random sample of {view.points_shown:,} of {view.rows_used:,} points; fits use every row",
-                 xref="paper", yref="paper", x=1, y=1.0, xanchor="right", yanchor="bottom", showarrow=False,
-                 font=dict(size=11, color="#44525c"), bgcolor="rgba(255,253,248,0.8)")
+            dict(
+                text=f"showing a random sample of {view.points_shown:,} of {view.rows_used:,} points; fits use every row",
+                xref="paper",
+                yref="paper",
+                x=1,
+                y=1.0,
+                xanchor="right",
+                yanchor="bottom",
+                showarrow=False,
+                font=dict(size=11, color="#44525c"),
+                bgcolor="rgba(255,253,248,0.8)",
+            )
         )
         layout["legend"]["y"] = 1.06
     return go.Figure(data=traces, layout=layout)
@@ -218,33 +318,78 @@ def error_figure(view: SplitView, dv: DegreeView) -> go.Figure:
     deg = sw.degrees.astype(int).tolist()
     has_se = sw.n_splits > 1
     traces: list[dict] = []
-    traces.append(_line(x=deg, y=_list(sw.train_rmse), mode="lines+markers", name="training RMSE",
-                             line=dict(color=TRAIN, width=2), marker=dict(symbol="circle", size=7, color=TRAIN),
-                             hovertemplate="degree %{x}<br>training RMSE %{y:.4g}<extra></extra>"))
-    traces.append(_line(
-        x=deg, y=_list(sw.test_rmse), mode="lines+markers",
-        name="test RMSE" + (" ± SE" if has_se else ""),
-        line=dict(color=TEST, width=2), marker=dict(symbol="diamond-open", size=9, color=TEST, line=dict(width=2)),
-        error_y=dict(type="data", array=_list(np.nan_to_num(sw.test_rmse_se, nan=0.0)), visible=has_se,
-                     color=TEST, thickness=1.3, width=4),
-        hovertemplate="degree %{x}<br>test RMSE %{y:.4g}<extra></extra>"))
+    traces.append(
+        _line(
+            x=deg,
+            y=_list(sw.train_rmse),
+            mode="lines+markers",
+            name="training RMSE",
+            line=dict(color=TRAIN, width=2),
+            marker=dict(symbol="circle", size=7, color=TRAIN),
+            hovertemplate="degree %{x}<br>training RMSE %{y:.4g}<extra></extra>",
+        )
+    )
+    traces.append(
+        _line(
+            x=deg,
+            y=_list(sw.test_rmse),
+            mode="lines+markers",
+            name="test RMSE" + (" ± SE" if has_se else ""),
+            line=dict(color=TEST, width=2),
+            marker=dict(symbol="diamond-open", size=9, color=TEST, line=dict(width=2)),
+            error_y=dict(
+                type="data",
+                array=_list(np.nan_to_num(sw.test_rmse_se, nan=0.0)),
+                visible=has_se,
+                color=TEST,
+                thickness=1.3,
+                width=4,
+            ),
+            hovertemplate="degree %{x}<br>test RMSE %{y:.4g}<extra></extra>",
+        )
+    )
     sdeg = st.degrees.astype(int).tolist()
-    traces.append(_line(x=sdeg, y=_list(st.test_rmse), mode="lines", name="verdict CV (test)",
-                             line=dict(color=STEADY, width=1.6, dash="dash"),
-                             hovertemplate="degree %{x}<br>steady CV RMSE %{y:.4g}<extra></extra>"))
+    traces.append(
+        _line(
+            x=sdeg,
+            y=_list(st.test_rmse),
+            mode="lines",
+            name="verdict CV (test)",
+            line=dict(color=STEADY, width=1.6, dash="dash"),
+            hovertemplate="degree %{x}<br>steady CV RMSE %{y:.4g}<extra></extra>",
+        )
+    )
     cur_y = _current_y(view, dv.degree)
-    traces.append(_line(x=[dv.degree], y=[cur_y], mode="markers", name="current",
-                             marker=dict(symbol="circle-open", size=20, color=HIGHLIGHT, line=dict(width=3)),
-                             hoverinfo="skip"))
+    traces.append(
+        _line(
+            x=[dv.degree],
+            y=[cur_y],
+            mode="markers",
+            name="current",
+            marker=dict(symbol="circle-open", size=20, color=HIGHLIGHT, line=dict(width=3)),
+            hoverinfo="skip",
+        )
+    )
     rec = view.recommended_degree
     rec_y = _steady_y(view, rec)
-    traces.append(_line(x=[rec], y=[rec_y], mode="markers+text", name="recommended",
-                             marker=dict(symbol="star", size=16, color="#2b8a3e", line=dict(width=1, color="#ffffff")),
-                             text=[f"recommended {rec}"], textposition="top center",
-                             textfont=dict(color="#2b8a3e", size=12), hoverinfo="skip"))
+    traces.append(
+        _line(
+            x=[rec],
+            y=[rec_y],
+            mode="markers+text",
+            name="recommended",
+            marker=dict(symbol="star", size=16, color="#2b8a3e", line=dict(width=1, color="#ffffff")),
+            text=[f"recommended {rec}"],
+            textposition="top center",
+            textfont=dict(color="#2b8a3e", size=12),
+            hoverinfo="skip",
+        )
+    )
     caption = dv.caption
     layout = _base_layout(error_title(view), "polynomial degree", _rmse_title(view), caption)
-    layout["yaxis"].update(type="log", dtick=1, minor=dict(ticks="inside", ticklen=4, showgrid=True, gridcolor="#f1eee7"))
+    layout["yaxis"].update(
+        type="log", dtick=1, minor=dict(ticks="inside", ticklen=4, showgrid=True, gridcolor="#f1eee7")
+    )
     layout["xaxis"].update(dtick=1 if len(deg) <= 13 else 2, range=[-0.5, max(deg) + 0.5])
     layout["shapes"] = [_degree_band(dv.degree)]
     return go.Figure(data=traces, layout=layout)
@@ -260,8 +405,18 @@ def error_degree_patch(view: SplitView, dv: DegreeView) -> Patch:
 
 
 def _degree_band(d: int) -> dict:
-    return dict(type="rect", xref="x", yref="paper", x0=d - 0.4, x1=d + 0.4, y0=0, y1=1,
-                fillcolor="rgba(184, 0, 46, 0.07)", line=dict(width=0), layer="below")
+    return dict(
+        type="rect",
+        xref="x",
+        yref="paper",
+        x0=d - 0.4,
+        x1=d + 0.4,
+        y0=0,
+        y1=1,
+        fillcolor="rgba(184, 0, 46, 0.07)",
+        line=dict(width=0),
+        layer="below",
+    )
 
 
 def _current_y(view: SplitView, d: int) -> float:
@@ -286,28 +441,70 @@ def residual_figure(view: SplitView, model: ModelView) -> go.Figure:
     n_tr = view.train_x.size
     sc = _scatter(model.residual_x.size)
     traces: list[dict] = []
-    traces.append(sc(x=model.residual_x[:n_tr], y=model.residuals[:n_tr], mode="markers", name="training",
-                     marker=dict(symbol="circle", size=6 if n_tr < 2000 else 3, color=TRAIN, opacity=0.8)))
+    traces.append(
+        sc(
+            x=model.residual_x[:n_tr],
+            y=model.residuals[:n_tr],
+            mode="markers",
+            name="training",
+            marker=dict(symbol="circle", size=6 if n_tr < 2000 else 3, color=TRAIN, opacity=0.8),
+        )
+    )
     if model.residual_x.size > n_tr:
-        traces.append(sc(x=model.residual_x[n_tr:], y=model.residuals[n_tr:], mode="markers", name="test",
-                         marker=dict(symbol="diamond-open", size=8 if n_tr < 2000 else 4, color=TEST, line=dict(width=1.6))))
+        traces.append(
+            sc(
+                x=model.residual_x[n_tr:],
+                y=model.residuals[n_tr:],
+                mode="markers",
+                name="test",
+                marker=dict(symbol="diamond-open", size=8 if n_tr < 2000 else 4, color=TEST, line=dict(width=1.6)),
+            )
+        )
     unit = f" ({view.y_unit})" if view.y_unit else ""
-    layout = _base_layout(f"Residuals at degree {model.fit.degree}", plot_text(view.x_label), plot_text(f"residual{unit}"),
-                          ("y − fitted value" + ("; a random sample of the points is shown." if model.residual_sampled else "."),
-                           f"The fit used {model.fitted_rows}."))
+    layout = _base_layout(
+        f"Residuals at degree {model.fit.degree}",
+        plot_text(view.x_label),
+        plot_text(f"residual{unit}"),
+        (
+            "y − fitted value" + ("; a random sample of the points is shown." if model.residual_sampled else "."),
+            f"The fit used {model.fitted_rows}.",
+        ),
+    )
     layout["margin"] = dict(l=72, r=24, t=64, b=100)
-    layout["shapes"] = [dict(type="line", xref="paper", x0=0, x1=1, yref="y", y0=0, y1=0,
-                             line=dict(color="#7d868c", width=1.2, dash="dot"))]
+    layout["shapes"] = [
+        dict(
+            type="line",
+            xref="paper",
+            x0=0,
+            x1=1,
+            yref="y",
+            y0=0,
+            y1=0,
+            line=dict(color="#7d868c", width=1.2, dash="dot"),
+        )
+    ]
     return go.Figure(data=traces, layout=layout)
 
 
 def empty_figure(message: str) -> go.Figure:
     fig = go.Figure()
     fig.update_layout(
-        paper_bgcolor=PAPER, plot_bgcolor="#ffffff", font=dict(family=FONT, color=INK),
-        xaxis=dict(visible=False), yaxis=dict(visible=False),
-        annotations=[dict(text=message, showarrow=False, xref="paper", yref="paper", x=0.5, y=0.5,
-                          font=dict(size=14, color="#44525c"))],
+        paper_bgcolor=PAPER,
+        plot_bgcolor="#ffffff",
+        font=dict(family=FONT, color=INK),
+        xaxis=dict(visible=False),
+        yaxis=dict(visible=False),
+        annotations=[
+            dict(
+                text=message,
+                showarrow=False,
+                xref="paper",
+                yref="paper",
+                x=0.5,
+                y=0.5,
+                font=dict(size=14, color="#44525c"),
+            )
+        ],
         margin=dict(l=20, r=20, t=20, b=20),
     )
     return fig

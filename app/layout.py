@@ -16,7 +16,9 @@ DEGREE_MAX_START = 20
 
 
 def panel(title: str, *children, class_name: str = "", **kw) -> html.Section:
-    return html.Section([html.H2(title, className="panel-title"), *children], className=f"panel {class_name}".strip(), **kw)
+    return html.Section(
+        [html.H2(title, className="panel-title"), *children], className=f"panel {class_name}".strip(), **kw
+    )
 
 
 def degree_marks(max_degree: int) -> dict:
@@ -48,22 +50,31 @@ def _chart(graph_id: str, png_id: str, svg_id: str, filename: str, height: int) 
 
 
 def build_layout(dataset_store: dict, *, upload_limit_bytes: int, upload_max_size: int) -> html.Div:
-    limit_text = f"{upload_limit_bytes / 2**20:.0f} MiB" if upload_limit_bytes >= 2**20 else f"{upload_limit_bytes:,} bytes"
+    limit_text = (
+        f"{upload_limit_bytes / 2**20:.0f} MiB" if upload_limit_bytes >= 2**20 else f"{upload_limit_bytes:,} bytes"
+    )
     side = html.Aside(
         [
             panel(
                 "Data intake",
-                html.Div(dcc.Upload(
-                    id=ids.UPLOAD,
-                    children=html.Div(
-                        [html.Strong("Drop a CSV or text table here"), html.Span(" or click to choose a file"),
-                         html.Div(f"up to {limit_text}; stays on this server", className="muted small")]
+                html.Div(
+                    dcc.Upload(
+                        id=ids.UPLOAD,
+                        children=html.Div(
+                            [
+                                html.Strong("Drop a CSV or text table here"),
+                                html.Span(" or click to choose a file"),
+                                html.Div(f"up to {limit_text}; stays on this server", className="muted small"),
+                            ]
+                        ),
+                        multiple=False,
+                        max_size=upload_max_size,
+                        className="upload",
+                        className_active="upload upload-active",
                     ),
-                    multiple=False,
-                    max_size=upload_max_size,
-                    className="upload",
-                    className_active="upload upload-active",
-                ), id=ids.UPLOAD_BOX, **{"data-limit": str(upload_limit_bytes)}),
+                    id=ids.UPLOAD_BOX,
+                    **{"data-limit": str(upload_limit_bytes)},
+                ),
                 html.Div(id=ids.UPLOAD_SIZE_WARNING, className="notice notice-error", role="status"),
                 html.Div(id=ids.UPLOAD_NOTICE, className="notice", role="status"),
                 html.Div(id=ids.INTAKE_REPORT, className="intake"),
@@ -94,16 +105,24 @@ def build_layout(dataset_store: dict, *, upload_limit_bytes: int, upload_max_siz
                 html.Div(
                     [
                         html.Label("Holdout share (%)", htmlFor=ids.HOLDOUT),
-                        dcc.Slider(id=ids.HOLDOUT, min=10, max=50, step=5, value=25,
-                                   marks={v: f"{v}" for v in range(10, 51, 10)}, allow_direct_input=False),
+                        dcc.Slider(
+                            id=ids.HOLDOUT,
+                            min=10,
+                            max=50,
+                            step=5,
+                            value=25,
+                            marks={v: f"{v}" for v in range(10, 51, 10)},
+                            allow_direct_input=False,
+                        ),
                     ],
                     id=ids.HOLDOUT_BOX,
                 ),
                 html.Div(
                     [
                         html.Label("Folds (k)", htmlFor=ids.FOLDS),
-                        dcc.Input(id=ids.FOLDS, type="number", min=2, max=50, step=1, value=10, debounce=True,
-                                  className="num"),
+                        dcc.Input(
+                            id=ids.FOLDS, type="number", min=2, max=50, step=1, value=10, debounce=True, className="num"
+                        ),
                     ],
                     id=ids.FOLDS_BOX,
                 ),
@@ -135,8 +154,16 @@ def build_layout(dataset_store: dict, *, upload_limit_bytes: int, upload_max_siz
                 ],
                 className="degree-head",
             ),
-            dcc.Slider(id=ids.DEGREE, min=0, max=DEGREE_MAX_START, step=1, value=None,
-                       marks=degree_marks(DEGREE_MAX_START), updatemode="mouseup", className="degree-slider"),
+            dcc.Slider(
+                id=ids.DEGREE,
+                min=0,
+                max=DEGREE_MAX_START,
+                step=1,
+                value=None,
+                marks=degree_marks(DEGREE_MAX_START),
+                updatemode="mouseup",
+                className="degree-slider",
+            ),
             dcc.Checklist(
                 id=ids.BANDS,
                 options=[
@@ -184,8 +211,9 @@ def build_layout(dataset_store: dict, *, upload_limit_bytes: int, upload_max_siz
                     [
                         html.Span("Equation", className="label"),
                         html.Code(id=ids.EQUATION, className="equation"),
-                        dcc.Clipboard(target_id=ids.EQUATION, id=ids.EQUATION_COPY, title="copy the equation",
-                                      className="copy"),
+                        dcc.Clipboard(
+                            target_id=ids.EQUATION, id=ids.EQUATION_COPY, title="copy the equation", className="copy"
+                        ),
                     ],
                     className="equation-row",
                 ),
@@ -194,8 +222,12 @@ def build_layout(dataset_store: dict, *, upload_limit_bytes: int, upload_max_siz
                 class_name="model-card",
             ),
             html.Div(
-                dcc.Graph(id=ids.RESIDUAL_CHART, figure=empty_figure("Residuals appear here."),
-                          config=image_options("degreescope-residuals"), style={"height": "380px"}),
+                dcc.Graph(
+                    id=ids.RESIDUAL_CHART,
+                    figure=empty_figure("Residuals appear here."),
+                    config=image_options("degreescope-residuals"),
+                    style={"height": "380px"},
+                ),
                 className="chart-card",
             ),
         ],
@@ -242,8 +274,10 @@ def build_layout(dataset_store: dict, *, upload_limit_bytes: int, upload_max_siz
             dcc.Store(id=ids.IMAGE_DONE),
             html.Header(
                 [
-                    html.Div([html.Span("degree", className="brand-a"), html.Span("scope", className="brand-b")],
-                             className="brand"),
+                    html.Div(
+                        [html.Span("degree", className="brand-a"), html.Span("scope", className="brand-b")],
+                        className="brand",
+                    ),
                     html.P("Pick a polynomial degree you can defend, and hand over the model.", className="tagline"),
                 ],
                 className="topbar",

@@ -142,8 +142,7 @@ class _Guard:
         host = environ.get("HTTP_HOST", "").strip().lower()
         if host not in self.allowed_hosts:
             self.refused["host"] += 1
-            return _plain(start_response, "421 Misdirected Request",
-                          "This server does not answer to that host name.\n")
+            return _plain(start_response, "421 Misdirected Request", "This server does not answer to that host name.\n")
         path = environ.get("PATH_INFO", "")
         if _suspicious_path(path):
             return _plain(start_response, "404 Not Found", "Not found.\n")
@@ -153,14 +152,23 @@ class _Guard:
             offered = [v for k, v in pairs if k == "token"]
             if offered and self._matches(offered[-1]):
                 rest = urlencode([(k, v) for k, v in pairs if k != "token"])
-                location = quote(environ.get("SCRIPT_NAME", "") + environ.get("PATH_INFO", "/")) + ("?" + rest if rest else "")
+                location = quote(environ.get("SCRIPT_NAME", "") + environ.get("PATH_INFO", "/")) + (
+                    "?" + rest if rest else ""
+                )
                 cookie = f"{self.cookie_name}={self.token}; Path=/; HttpOnly; SameSite=Strict"
-                return _plain(start_response, "303 See Other", "Signed in; continue to the dashboard.\n",
-                              [("Location", location or "/"), ("Set-Cookie", cookie), ("Cache-Control", "no-store")])
+                return _plain(
+                    start_response,
+                    "303 See Other",
+                    "Signed in; continue to the dashboard.\n",
+                    [("Location", location or "/"), ("Set-Cookie", cookie), ("Cache-Control", "no-store")],
+                )
             if not self._matches(self._cookie(environ)):
                 self.refused["token"] += 1
-                return _plain(start_response, "403 Forbidden",
-                              "Open the address with ?token=... that the server printed when it started.\n")
+                return _plain(
+                    start_response,
+                    "403 Forbidden",
+                    "Open the address with ?token=... that the server printed when it started.\n",
+                )
 
         def start_with_headers(status, headers, exc_info=None):
             present = {k.lower() for k, _ in headers}
@@ -255,7 +263,11 @@ def _answer_malformed_callbacks_with_400(flask_app: Any) -> None:
             return "", 204
         if request.path.endswith("/_dash-update-component") and not isinstance(exc, InvalidCallbackReturnValue):
             flask_app.logger.warning("refused a malformed callback request: %s: %s", type(exc).__name__, exc)
-            return "This request does not match any of the dashboard's callbacks.\n", 400, {"Content-Type": "text/plain; charset=utf-8"}
+            return (
+                "This request does not match any of the dashboard's callbacks.\n",
+                400,
+                {"Content-Type": "text/plain; charset=utf-8"},
+            )
         flask_app.logger.error("Exception on %s [%s]", request.path, request.method, exc_info=exc)
         return "Internal server error.\n", 500, {"Content-Type": "text/plain; charset=utf-8"}
 

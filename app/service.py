@@ -253,8 +253,6 @@ def _read_table(source: bytes | str | Path, *, max_bytes: int, name: str | None)
     return fitting.read_table(source, max_bytes=max_bytes, name=name)
 
 
-
-
 def _table_nbytes(table, fallback: int) -> int:
     for attr in ("nbytes",):
         v = getattr(table, attr, None)
@@ -421,7 +419,9 @@ class FitService:
             n = sel.rows_used
             degrees = range(0, MAX_DEGREE + 1)
             if sel.group is not None:
-                return fitting.sweep_degrees(sel.x, sel.y, degrees=degrees, folds=np.asarray(sel.group), weights=sel.weights)
+                return fitting.sweep_degrees(
+                    sel.x, sel.y, degrees=degrees, folds=np.asarray(sel.group), weights=sel.weights
+                )
             k = min(STEADY_FOLDS, n)
             repeats = STEADY_REPEATS_SMALL if n <= STEADY_SMALL_ROWS else 1
             return fitting.sweep_degrees(
@@ -556,7 +556,7 @@ class FitService:
         )
         q = float(stdtrit(fit.dof, 0.975)) if fit.dof > 0 else float("nan")  # Student t quantile
         rows = []
-        for k, (c, se) in enumerate(zip(fit.coefficients, fit.standard_errors)):
+        for k, (c, se) in enumerate(zip(fit.coefficients, fit.standard_errors, strict=False)):
             unit = _coef_unit(view.x_unit, view.y_unit, k)
             rows.append(
                 {
@@ -602,7 +602,14 @@ class FitService:
         clo, chi = fit.band(x, "confidence", 0.95)
         plo, phi = fit.band(x, "prediction", 0.95)
         return PredictionView(
-            x=x, y=y, conf_lo=clo, conf_hi=chi, pred_lo=plo, pred_hi=phi, outside=fit.outside_domain(x), domain=fit.domain
+            x=x,
+            y=y,
+            conf_lo=clo,
+            conf_hi=chi,
+            pred_lo=plo,
+            pred_hi=phi,
+            outside=fit.outside_domain(x),
+            domain=fit.domain,
         )
 
     def row_predictions(self, ds_id: str, cols: Columns, split: SplitSettings, degree: int):

@@ -32,7 +32,11 @@ def environment() -> str:
     try:
         from threadpoolctl import threadpool_info
 
-        blas = ", ".join(f"{i['internal_api']} {i.get('version')} ({i['num_threads']} threads)" for i in threadpool_info() if i["user_api"] == "blas")
+        blas = ", ".join(
+            f"{i['internal_api']} {i.get('version')} ({i['num_threads']} threads)"
+            for i in threadpool_info()
+            if i["user_api"] == "blas"
+        )
     except Exception:  # pragma: no cover
         blas = "unknown"
     import os

@@ -152,8 +152,10 @@ def measure(browser, url: str, curve_index: int, presses: int, settle_ms: int) -
         " return !!(gd && gd._fullData && gd._fullData[i] && gd._fullData[i].y && gd._fullData[i].y.length); }",
         arg=curve_index,
     )
-    print(f"  page opened to first fit chart (data already read, sweep computed on request): "
-          f"{(time.perf_counter() - started) * 1000:.0f} ms")
+    print(
+        f"  page opened to first fit chart (data already read, sweep computed on request): "
+        f"{(time.perf_counter() - started) * 1000:.0f} ms"
+    )
     page.wait_for_timeout(1500)
     thumb = page.locator("#degree [role=slider]")
     thumb.focus()
@@ -182,7 +184,9 @@ def main(argv=None) -> int:
     ap.add_argument("--presses", type=int, default=15)
     ap.add_argument("--settle-ms", type=int, default=400)
     ap.add_argument(
-        "--naive-max-rows", type=int, default=200_000,
+        "--naive-max-rows",
+        type=int,
+        default=200_000,
         help="skip the naive comparison above this many rows: it resends every point and the page stalls",
     )
     args = ap.parse_args(argv)
@@ -193,10 +197,13 @@ def main(argv=None) -> int:
         return 2
     path = ROOT / "sample_data" / "generated" / f"sensor_log_{args.rows}.csv"
     if not path.exists():
-        subprocess.run([sys.executable, str(ROOT / "sample_data" / "make_samples.py"), "--large", str(args.rows)], check=True)
+        subprocess.run(
+            [sys.executable, str(ROOT / "sample_data" / "make_samples.py"), "--large", str(args.rows)], check=True
+        )
+
+    from playwright.sync_api import sync_playwright
 
     import app as dashboard
-    from playwright.sync_api import sync_playwright
 
     ours = dashboard.create_app(str(path))
     ours_timed = Timed(ours.server.wsgi_app, "degree-readout.children@")

@@ -13,9 +13,8 @@ from __future__ import annotations
 import argparse
 
 import numpy as np
-from numpy.polynomial import Polynomial
-
 from _common import blas_limit, environment, interleaved_medians
+from numpy.polynomial import Polynomial
 
 from fitting import fit_polynomial  # noqa: E402
 
@@ -24,8 +23,12 @@ def main(argv=None) -> None:
     ap = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
     ap.add_argument("--repeats", type=int, default=7)
     ap.add_argument("--degrees", default="2,5,10,15")
-    ap.add_argument("--blas-threads", type=int, default=1,
-                    help="BLAS threads for both sides (default 1, what the engine uses for its own LAPACK calls); 0 leaves the library default")
+    ap.add_argument(
+        "--blas-threads",
+        type=int,
+        default=1,
+        help="BLAS threads for both sides (default 1, what the engine uses for its own LAPACK calls); 0 leaves the library default",
+    )
     args = ap.parse_args(argv)
     with blas_limit(args.blas_threads or None):
         _run(args)
@@ -41,8 +44,12 @@ def _run(args) -> None:
         y = 3.0 + 0.2 * x - 0.004 * x**2 + np.sin(x / 5.0) + rng.normal(0.0, 0.05, n)
         reps = args.repeats if n < 1_000_000 else max(3, args.repeats // 2)
         for d in degrees:
-            med = interleaved_medians({"ours": lambda: fit_polynomial(x, y, d), "numpy": lambda: Polynomial.fit(x, y, d)}, repeats=reps)
-            print(f"{n:9,d} {d:6d} {med['ours'] * 1e3:12.1f} ms {med['numpy'] * 1e3:12.1f} ms {med['ours'] / med['numpy']:6.2f}x")
+            med = interleaved_medians(
+                {"ours": lambda: fit_polynomial(x, y, d), "numpy": lambda: Polynomial.fit(x, y, d)}, repeats=reps
+            )
+            print(
+                f"{n:9,d} {d:6d} {med['ours'] * 1e3:12.1f} ms {med['numpy'] * 1e3:12.1f} ms {med['ours'] / med['numpy']:6.2f}x"
+            )
 
 
 if __name__ == "__main__":

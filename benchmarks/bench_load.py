@@ -52,7 +52,9 @@ def session_data(k: int) -> tuple[np.ndarray, np.ndarray]:
 
 def session_csv(k: int) -> bytes:
     x, y = session_data(k)
-    lines = ["# invented load-test data, session %d" % k, "x,y"] + [f"{float(a)!r},{float(b)!r}" for a, b in zip(x, y)]
+    lines = ["# invented load-test data, session %d" % k, "x,y"] + [
+        f"{float(a)!r},{float(b)!r}" for a, b in zip(x, y, strict=False)
+    ]
     return ("\n".join(lines) + "\n").encode()
 
 
@@ -202,8 +204,13 @@ class Session:
             self.request("dependencies", "GET", "/_dash-dependencies")
 
             contents = "data:text/csv;base64," + base64.b64encode(session_csv(k)).decode()
-            up = self.callback("upload", p.find("dataset.data", "upload.contents"),
-                               {"upload.contents": contents}, {"upload.filename": f"session-{k}.csv"}, ["upload.contents"])
+            up = self.callback(
+                "upload",
+                p.find("dataset.data", "upload.contents"),
+                {"upload.contents": contents},
+                {"upload.filename": f"session-{k}.csv"},
+                ["upload.contents"],
+            )
             notice = " ".join(_texts(up["response"]["upload-notice"]["children"]))
             if not notice.startswith("Loaded"):
                 raise RuntimeError(f"upload refused: {notice}")
@@ -212,11 +219,20 @@ class Session:
                 res.crosstalk.append(f"session {k}: upload answered with dataset {dataset.get('name')!r}")
 
             split_dep = p.find("fit-chart.figure", "dataset.data")
-            inputs = {"dataset.data": dataset, "x-column.value": "x", "y-column.value": "y",
-                      "weights-column.value": None, "group-column.value": None, "split-mode.value": "kfold",
-                      "holdout.value": 25, "folds.value": 5, "seed.value": 0}
-            sp = self.callback("split", split_dep, inputs, {"degree.value": 1, "bands.value": ["confidence"]},
-                               ["x-column.value"])
+            inputs = {
+                "dataset.data": dataset,
+                "x-column.value": "x",
+                "y-column.value": "y",
+                "weights-column.value": None,
+                "group-column.value": None,
+                "split-mode.value": "kfold",
+                "holdout.value": 25,
+                "folds.value": 5,
+                "seed.value": 0,
+            }
+            sp = self.callback(
+                "split", split_dep, inputs, {"degree.value": 1, "bands.value": ["confidence"]}, ["x-column.value"]
+            )
             r = sp["response"]
             fit_notice = " ".join(_texts(r["fit-notice"]["children"])) if "fit-notice" in r else ""
             if fit_notice:
@@ -227,17 +243,22 @@ class Session:
             deg_dep = p.find("fit-chart.figure", "degree.drag_value")
             model_dep = p.find("stats.children", "split-key.data")
             for d in degrees:
-                dg = self.callback("degree", deg_dep, {"degree.drag_value": d, "degree.value": d,
-                                                       "bands.value": ["confidence"]}, {"split-key.data": key},
-                                   ["degree.value"])
+                dg = self.callback(
+                    "degree",
+                    deg_dep,
+                    {"degree.drag_value": d, "degree.value": d, "bands.value": ["confidence"]},
+                    {"split-key.data": key},
+                    ["degree.value"],
+                )
                 notice = " ".join(_texts(dg["response"].get("fit-notice", {}).get("children")))
                 if notice:
                     raise RuntimeError(f"degree {d}: {notice}")
                 # the browser copies the slider's resting value into the model callback's degree input
                 # (a clientside debounce store, or the slider itself): give every degree input the value
                 deg_inputs = [i["id"] + "." + i["property"] for i in model_dep["inputs"][1:]]
-                md = self.callback("model", model_dep, {"split-key.data": key, **{n: d for n in deg_inputs}}, {},
-                                   deg_inputs[:1])
+                md = self.callback(
+                    "model", model_dep, {"split-key.data": key, **{n: d for n in deg_inputs}}, {}, deg_inputs[:1]
+                )
                 if "coefficients" not in md["response"]:
                     note = " ".join(_texts(md["response"].get("model-note", {}).get("children")))
                     raise RuntimeError(f"degree {d}: no coefficient table; the dashboard said: {note[:200]}")
@@ -284,7 +305,9 @@ class _ServerProcess:
         root = Path(__file__).resolve().parent.parent
         self.proc = subprocess.Popen(
             [sys.executable, "-m", "app.cli", "serve", "--port", str(self.port), "--threads", str(threads)],
-            cwd=root, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
+            cwd=root,
+            stdout=subprocess.DEVNULL,
+            stderr=subprocess.DEVNULL,
         )
         self.guard = None
         deadline = time.monotonic() + 60
@@ -388,11 +411,17 @@ def main(argv=None) -> int:
     if a.json:
         print(json.dumps(out, indent=2))
     else:
-        print(f"server: {out['server']}; sessions {out['sessions']}, server threads {out['server_threads']}, requests {out['requests']} "
-              f"in {out['wall_seconds']:.1f} s ({out['requests_per_second']:.0f} per second)")
+        print(
+            f"server: {out['server']}; sessions {out['sessions']}, server threads {out['server_threads']}, requests {out['requests']} "
+            f"in {out['wall_seconds']:.1f} s ({out['requests_per_second']:.0f} per second)"
+        )
         print(f"HTTP status counts: {out['status']}; 5xx: {out['server_errors_5xx']}")
-        print(f"errors: {len(out['errors'])}; cross-talk: {len(out['crosstalk'])}; unfinished: {out['unfinished_sessions']}")
-        print(f"latency all requests: p50 {out['p50_ms']:.1f} ms, p95 {out['p95_ms']:.1f} ms, max {out['max_ms']:.1f} ms")
+        print(
+            f"errors: {len(out['errors'])}; cross-talk: {len(out['crosstalk'])}; unfinished: {out['unfinished_sessions']}"
+        )
+        print(
+            f"latency all requests: p50 {out['p50_ms']:.1f} ms, p95 {out['p95_ms']:.1f} ms, max {out['max_ms']:.1f} ms"
+        )
         for k, v in out["by_kind"].items():
             print(f"  {k:<13} n={v['n']:<5} p50 {v['p50_ms']:8.1f} ms   p95 {v['p95_ms']:8.1f} ms")
         for line in (out["errors"] + out["crosstalk"])[:10]:

@@ -117,24 +117,31 @@ def main(argv=None) -> int:
     args = ap.parse_args(argv)
     sizes = [int(s) for s in args.sizes.split(",")]
     args.data.mkdir(parents=True, exist_ok=True)
-    print(f"streaming sweep, degrees 0-12 x 10 folds, engine {args.engine}, one child process per n, "
-          f"load average {os.getloadavg()[0]:.2f}")
-    print(f"{'n':>10} {'sweep s':>9} {'process s':>10} {'peak RSS MB':>12} {'pyarrow read s':>15} {'µs/row':>7} {'degree':>7}")
+    print(
+        f"streaming sweep, degrees 0-12 x 10 folds, engine {args.engine}, one child process per n, "
+        f"load average {os.getloadavg()[0]:.2f}"
+    )
+    print(
+        f"{'n':>10} {'sweep s':>9} {'process s':>10} {'peak RSS MB':>12} {'pyarrow read s':>15} {'µs/row':>7} {'degree':>7}"
+    )
     rows = []
     for n in sizes:
         path = ensure_csv(n, args.data)
         rec = sweep_in_child(path, args.engine)
         rd = read_in_child(path)
         rows.append((n, rec["sweep_s"]))
-        print(f"{n:>10} {rec['sweep_s']:>9.3f} {rec['process_s']:>10.2f} {rec['peak_rss_mb']:>12.0f} "
-              f"{rd['read_s']:>15.3f} {1e6 * rec['sweep_s'] / n:>7.3f} {rec['recommended_degree']:>7}", flush=True)
+        print(
+            f"{n:>10} {rec['sweep_s']:>9.3f} {rec['process_s']:>10.2f} {rec['peak_rss_mb']:>12.0f} "
+            f"{rd['read_s']:>15.3f} {1e6 * rec['sweep_s'] / n:>7.3f} {rec['recommended_degree']:>7}",
+            flush=True,
+        )
     ns = [n for n, _ in rows]
     ts = [t for _, t in rows]
     if len(ns) >= 2:
         print(f"log-log slope of sweep time on n, all sizes: {slope(ns, ts):.2f}")
         big = [(n, t) for n, t in rows if n >= 100_000]
         if len(big) >= 2:
-            print(f"log-log slope, n >= 1e5 (fixed start-up cost excluded): {slope(*zip(*big)):.2f}")
+            print(f"log-log slope, n >= 1e5 (fixed start-up cost excluded): {slope(*zip(*big, strict=False)):.2f}")
     return 0
 
 

@@ -32,16 +32,20 @@ def main(argv=None) -> int:
     args = ap.parse_args(argv)
     args.data.mkdir(parents=True, exist_ok=True)
     path = ensure_csv(N, args.data)
-    print(f"{path} ({os.path.getsize(path) / 1e6:.0f} MB), {os.cpu_count()} cores, engine {args.engine}, "
-          f"load average before {os.getloadavg()[0]:.2f}")
+    print(
+        f"{path} ({os.path.getsize(path) / 1e6:.0f} MB), {os.cpu_count()} cores, engine {args.engine}, "
+        f"load average before {os.getloadavg()[0]:.2f}"
+    )
     rd = read_in_child(path)
     print(f"reference, pyarrow alone streaming both columns: {rd['read_s']:.2f} s, peak RSS {rd['peak_rss_mb']:.0f} MB")
     rec = sweep_in_child(path, args.engine)
     ok_t = rec["process_s"] <= TARGET_S
     ok_m = rec["peak_rss_mb"] <= TARGET_MB
-    print(f"sweep (degrees 0-12 x 10 folds, {rec['passes']} passes over the file): {rec['sweep_s']:.2f} s "
-          f"(+ {rec['startup_s']:.2f} s start-up; whole process {rec['process_s']:.2f} s) "
-          f"-> target {TARGET_S:.0f} s: {'met' if ok_t else 'MISSED'}")
+    print(
+        f"sweep (degrees 0-12 x 10 folds, {rec['passes']} passes over the file): {rec['sweep_s']:.2f} s "
+        f"(+ {rec['startup_s']:.2f} s start-up; whole process {rec['process_s']:.2f} s) "
+        f"-> target {TARGET_S:.0f} s: {'met' if ok_t else 'MISSED'}"
+    )
     print(f"peak RSS {rec['peak_rss_mb']:.0f} MB -> target {TARGET_MB:.0f} MB: {'met' if ok_m else 'MISSED'}")
     print(f"rows used {rec['rows_used']}, recommended degree {rec['recommended_degree']}")
     print(f"load average after the run (other work on the machine slows it): {os.getloadavg()[0]:.2f}")

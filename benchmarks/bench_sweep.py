@@ -20,14 +20,14 @@ import time
 import warnings
 
 import numpy as np
+from _common import ROOT, blas_limit, environment, interleaved_medians
 from numpy.polynomial import Polynomial
-
-from _common import blas_limit, ROOT, environment, interleaved_medians
 
 sys.path.insert(0, str(ROOT / "tests"))
 
-from fitting import fit_polynomial, sweep_degrees  # noqa: E402
 from nist import POLYNOMIAL_SETS, load, lre  # noqa: E402
+
+from fitting import fit_polynomial, sweep_degrees  # noqa: E402
 
 
 def invented_data(n: int, seed: int = 0):
@@ -60,8 +60,15 @@ def speed(n: int, repeats: int, sk_repeats: int, seed: int = 0) -> None:
         warnings.simplefilter("ignore")
         for _ in range(sk_repeats):
             t0 = time.perf_counter()
-            validation_curve(pipe, x[:, None], y, param_name="polynomialfeatures__degree", param_range=degrees,
-                             cv=cv, scoring="neg_mean_squared_error")
+            validation_curve(
+                pipe,
+                x[:, None],
+                y,
+                param_name="polynomialfeatures__degree",
+                param_range=degrees,
+                cv=cv,
+                scoring="neg_mean_squared_error",
+            )
             sk_times.append(time.perf_counter() - t0)
     t_sk = float(np.median(sk_times))
 
@@ -73,9 +80,13 @@ def speed(n: int, repeats: int, sk_repeats: int, seed: int = 0) -> None:
             mse = float(np.mean((y[te] - p(x[te])) ** 2))
             worst = max(worst, abs(s.test_rmse_folds[i, j] ** 2 - mse) / mse)
 
-    print(f"Degree sweep, degrees 0-15 x 10 folds, {n:,} rows (medians of {repeats} interleaved runs; sklearn {sk_repeats})")
+    print(
+        f"Degree sweep, degrees 0-15 x 10 folds, {n:,} rows (medians of {repeats} interleaved runs; sklearn {sk_repeats})"
+    )
     print(f"  sweep_degrees                      {med['sweep'] * 1e3:9.1f} ms")
-    print(f"  numpy Polynomial.fit, degree 15    {med['numpy'] * 1e3:9.1f} ms   sweep / numpy   = {med['sweep'] / med['numpy']:6.2f}x")
+    print(
+        f"  numpy Polynomial.fit, degree 15    {med['numpy'] * 1e3:9.1f} ms   sweep / numpy   = {med['sweep'] / med['numpy']:6.2f}x"
+    )
     print(f"  sklearn validation_curve pipeline  {t_sk * 1e3:9.1f} ms   sklearn / sweep = {t_sk / med['sweep']:6.0f}x")
     print(f"  max relative difference of fold test MSE vs per-fold Polynomial.fit refits: {worst:.2e}")
     print(f"  recommended degree {s.recommended_degree}: {s.recommendation}")
@@ -123,8 +134,10 @@ def lre_table() -> None:
             f"  {name:9s} {d:3d} | {ours[0]:10.1f} {ours[1]:5.1f} {ours[2]:6.1f} {ours[3]:5.1f} | "
             f"{polyfit[0]:13.1f} {polyfit[1]:5.1f} {polyfit[2]:6.1f} {polyfit[3]:5.1f} | {polyn[0]:20.1f} {polyn[1]:6.1f} {polyn[2]:5.1f}"
         )
-    print("  (numpy's residual SD and R² are computed here from its coefficients in double precision;"
-          " polyfit's SE from cov=True)")
+    print(
+        "  (numpy's residual SD and R² are computed here from its coefficients in double precision;"
+        " polyfit's SE from cov=True)"
+    )
 
 
 def main(argv=None) -> None:
@@ -133,8 +146,12 @@ def main(argv=None) -> None:
     ap.add_argument("--repeats", type=int, default=7)
     ap.add_argument("--sklearn-repeats", type=int, default=1)
     ap.add_argument("--seed", type=int, default=0)
-    ap.add_argument("--blas-threads", type=int, default=1,
-                    help="BLAS threads for both sides (default 1, what the engine uses for its own LAPACK calls); 0 leaves the library default")
+    ap.add_argument(
+        "--blas-threads",
+        type=int,
+        default=1,
+        help="BLAS threads for both sides (default 1, what the engine uses for its own LAPACK calls); 0 leaves the library default",
+    )
     args = ap.parse_args(argv)
     with blas_limit(args.blas_threads or None):
         _run(args)

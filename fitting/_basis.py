@@ -152,7 +152,9 @@ def _cheb_to_power_t(ncols: int) -> list[list[int]]:
 
 
 @lru_cache(maxsize=128)
-def power_conversion(ncols: int, offset: float, scale: float, through_origin: bool = False) -> tuple[tuple[decimal.Decimal, ...], ...]:
+def power_conversion(
+    ncols: int, offset: float, scale: float, through_origin: bool = False
+) -> tuple[tuple[decimal.Decimal, ...], ...]:
     """Matrix C with power coefficients (original x) = C @ basis coefficients, in 80-digit decimals.
 
     Ordinary fits use the basis T_j(t). Through-origin fits use z * T_j(t) with
@@ -176,7 +178,10 @@ def power_conversion(ncols: int, offset: float, scale: float, through_origin: bo
         for k in range(i + 1):
             p[k][i] = ctx.multiply(ctx.multiply(decimal.Decimal(comb(i, k)), neg_off_pow[i - k]), inv_sc_pow[i])
     conv = [
-        [_dot(ctx, [p[k][i] for i in range(j + 1)], [decimal.Decimal(m[i][j]) for i in range(j + 1)]) for j in range(ncols)]
+        [
+            _dot(ctx, [p[k][i] for i in range(j + 1)], [decimal.Decimal(m[i][j]) for i in range(j + 1)])
+            for j in range(ncols)
+        ]
         for k in range(ncols)
     ]
     if through_origin:
@@ -186,7 +191,7 @@ def power_conversion(ncols: int, offset: float, scale: float, through_origin: bo
 
 def _dot(ctx, a, b) -> decimal.Decimal:
     total = decimal.Decimal(0)
-    for u, v in zip(a, b):
+    for u, v in zip(a, b, strict=False):
         total = ctx.add(total, ctx.multiply(u, v))
     return total
 
@@ -215,7 +220,10 @@ def convert_covariance(conv, sym: np.ndarray) -> np.ndarray:
     ds = [[as_decimal(sym[i, j]) for j in range(n)] for i in range(n)]
     nzs = [_nonzero(row) for row in conv]
     # cs[i][j] = sum_k C[i][k] S[k][j]
-    cs = [[_dot(_CTX, [row[k] for k in nz], [ds[k][j] for k in nz]) for j in range(n)] for row, nz in zip(conv, nzs)]
+    cs = [
+        [_dot(_CTX, [row[k] for k in nz], [ds[k][j] for k in nz]) for j in range(n)]
+        for row, nz in zip(conv, nzs, strict=False)
+    ]
     out = np.empty((len(conv), len(conv)))
     for i in range(len(conv)):
         for j in range(i, len(conv)):

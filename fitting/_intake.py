@@ -179,9 +179,7 @@ _FIRST_LINES = 5
 _DELIMITERS = (",", ";", "\t", "|")
 _DELIMITER_WORDS = {",": "comma", ";": "semicolon", "\t": "tab", "|": "pipe"}
 
-_MISSING = frozenset(
-    ["", "na", "n/a", "n.a.", "#n/a", "#na", "-", "--", "nan", "-nan", "null", "none", "missing"]
-)
+_MISSING = frozenset(["", "na", "n/a", "n.a.", "#n/a", "#na", "-", "--", "nan", "-nan", "null", "none", "missing"])
 _MISSING_ARROW = pa.array(sorted(_MISSING), pa.large_string())
 # Every spelling of NaN that Arrow's float conversion accepts ("+nan", "nan(0x1)") is a
 # missing marker as well, so the fast and the general path cannot disagree on it.
@@ -297,9 +295,7 @@ class IntakeReport:
             f"{_plural(len(self.numeric_columns), 'numeric column')}: {cols}."
         )
         for reason, info in self.dropped.items():
-            out.append(
-                f"Left out {_plural(info.count, reason)} ({_lines_phrase(info.first_lines, info.count)})."
-            )
+            out.append(f"Left out {_plural(info.count, reason)} ({_lines_phrase(info.first_lines, info.count)}).")
         out.extend(self.notes)
         return out
 
@@ -345,9 +341,7 @@ class Selection:
             out["y"] = _json_list(self.y)
             out["weights"] = None if self.weights is None else _json_list(self.weights)
             out["group"] = None if self.group is None else _json_list(self.group)
-            out["line_numbers"] = (
-                None if self.line_numbers is None else [int(v) for v in self.line_numbers]
-            )
+            out["line_numbers"] = None if self.line_numbers is None else [int(v) for v in self.line_numbers]
         return out
 
 
@@ -432,10 +426,7 @@ class Table:
                     f"No row has finite numbers in both '{x}' and '{y}', so there is nothing "
                     f"to fit; choose other x and y columns."
                 )
-            raise FitError(
-                "x has fewer than two distinct values; a curve needs at least two. "
-                "Choose another x column."
-            )
+            raise FitError("x has fewer than two distinct values; a curve needs at least two. Choose another x column.")
         group_arr = None
         if g_name is not None:
             col = frame[g_name]
@@ -596,9 +587,7 @@ def _load(source, max_bytes: int, name: str | None) -> tuple[bytes, str]:
         if len(data) > max_bytes:
             raise _too_large(display, len(data), max_bytes)
         return data, display
-    raise TypeError(
-        f"read_table takes bytes or a path (str or os.PathLike), not {type(source).__name__}"
-    )
+    raise TypeError(f"read_table takes bytes or a path (str or os.PathLike), not {type(source).__name__}")
 
 
 def _too_large(display: str, size: int, limit: int) -> FileTooLargeError:
@@ -613,16 +602,12 @@ def _too_large(display: str, size: int, limit: int) -> FileTooLargeError:
 
 def _parse(data: bytes, display: str, *, fast: bool) -> Table:
     if not data.strip(b" \t\r\n\x0c\x00\xef\xbb\xbf\xff\xfe"):
-        raise IntakeError(
-            f"'{display}' is empty; choose a file with a header line and rows of numbers."
-        )
+        raise IntakeError(f"'{display}' is empty; choose a file with a header line and rows of numbers.")
     text, encoding = _decode(data, display)
     del data
     text = text.replace("\r\n", "\n").replace("\r", "\n")
     if not text.strip():
-        raise IntakeError(
-            f"'{display}' is empty; choose a file with a header line and rows of numbers."
-        )
+        raise IntakeError(f"'{display}' is empty; choose a file with a header line and rows of numbers.")
     layout = _layout(text, display)
     region_start = _offset_of_line(text, layout.data_start)
     region = text[region_start:]
@@ -678,9 +663,7 @@ def _decode(data: bytes, display: str) -> tuple[str, str]:
             try:
                 text = body.decode("cp1252")
             except UnicodeDecodeError:
-                raise _binary_error(
-                    display, "its bytes are not text in UTF-8, UTF-16 or Windows-1252"
-                ) from None
+                raise _binary_error(display, "its bytes are not text in UTF-8, UTF-16 or Windows-1252") from None
         return _clean_text(text, display), label
     try:
         text = body.decode(codec)
@@ -749,8 +732,12 @@ def _sample_records(lines: list[str], keep: list[int], d: str) -> list[tuple[int
         return [(i, lines[i].split(d)) for i in keep]
     try:
         reader = csv.reader(
-            (lines[i] for i in keep), delimiter=d, quotechar='"', doublequote=True,
-            skipinitialspace=True, strict=False,
+            (lines[i] for i in keep),
+            delimiter=d,
+            quotechar='"',
+            doublequote=True,
+            skipinitialspace=True,
+            strict=False,
         )
         out, prev = [], 0
         for rec in reader:
@@ -829,9 +816,7 @@ def _layout_from(lines: list[str], display: str) -> _Layout:
                 budget += k
         candidates.append(((score, counts[k], -order), d, k, recs))
     if not candidates:
-        any_line = [
-            s for s in stripped if s and not (hard_comment.match(s) and not _SHEET_ERROR_RE.match(s))
-        ]
+        any_line = [s for s in stripped if s and not (hard_comment.match(s) and not _SHEET_ERROR_RE.match(s))]
         if not any_line:
             raise IntakeError(
                 f"'{display}' holds no table: every line is blank or a comment; choose a file "
@@ -1145,7 +1130,7 @@ def _parse_general(region: str, layout: _Layout) -> _Columns:
     parsed = [_parse_numbers(c, layout.decimal) for c in trimmed_cols]
     valid = [p[1] for p in parsed]
     missing = [p[2] for p in parsed]
-    text_cell = [~v & ~m for v, m in zip(valid, missing)]
+    text_cell = [~v & ~m for v, m in zip(valid, missing, strict=False)]
 
     # Row kinds removed at intake (rule 12), examined only on the rows that can match.
     summary = np.zeros(n, dtype=bool)
@@ -1168,7 +1153,7 @@ def _parse_general(region: str, layout: _Layout) -> _Columns:
             first = pc.coalesce(
                 *[
                     pc.if_else(pa.array(e), pa.scalar(None, c.type), c.take(take))
-                    for e, c in zip(sub_empty, trimmed_cols)
+                    for e, c in zip(sub_empty, trimmed_cols, strict=False)
                 ]
             )
             summary[idx] = _np_bool(pc.match_substring_regex(first, _SUMMARY))
@@ -1180,7 +1165,7 @@ def _parse_general(region: str, layout: _Layout) -> _Columns:
             if idx.size:
                 take = pa.array(idx)
                 repeated[idx] = np.logical_and.reduce(
-                    [_np_bool(pc.equal(c.take(take), h)) for c, h in zip(trimmed_cols, heads)]
+                    [_np_bool(pc.equal(c.take(take), h)) for c, h in zip(trimmed_cols, heads, strict=False)]
                 )
     text_row = ~any_number & any_text
     dropped: dict[str, DropInfo] = {}
@@ -1327,7 +1312,7 @@ def _tokens_quoted(kept, kept_numbers: np.ndarray, d: str, k: int):
             extra[i] = any(f.strip() for f in rec[k:])
         records[i] = (rec + [""] * k)[:k]
     if records:
-        cols = [pa.array(list(c), pa.large_string()) for c in zip(*records)]
+        cols = [pa.array(list(c), pa.large_string()) for c in zip(*records, strict=False)]
     else:
         cols = [pa.array([], pa.large_string()) for _ in range(k)]
     return cols, counts, numbers, extra, multi
@@ -1338,9 +1323,7 @@ def _number_patterns(decimal: str):
     plain = f"^[+-]?(?:\\d+(?:{dm}\\d*)?|{dm}\\d+)(?:[eE][+-]?\\d+)?$"
     inf = "(?i)^[+-]?inf(?:inity)?$"
     marks = ["." if decimal == "," else ",", " ", "\u00a0", "\u202f"]
-    grouped = {
-        g: f"^[+-]?\\d{{1,3}}(?:{re.escape(g) if g in '.,' else g}\\d{{3}})+(?:{dm}\\d*)?$" for g in marks
-    }
+    grouped = {g: f"^[+-]?\\d{{1,3}}(?:{re.escape(g) if g in '.,' else g}\\d{{3}})+(?:{dm}\\d*)?$" for g in marks}
     return plain, inf, grouped
 
 
@@ -1464,9 +1447,7 @@ def _finish(display: str, encoding: str, layout: _Layout, cols: _Columns) -> Tab
             while f"{base} ({c})" in seen:
                 c += 1
             final = f"{base} ({c})"
-            notes.append(
-                f"The column name '{base}' appears more than once; column {j + 1} is called '{final}'."
-            )
+            notes.append(f"The column name '{base}' appears more than once; column {j + 1} is called '{final}'.")
         seen.add(final)
         names.append(final)
         if unit:
@@ -1498,13 +1479,10 @@ def _finish(display: str, encoding: str, layout: _Layout, cols: _Columns) -> Tab
     if cols.rows_read == 0:
         where = f"a header line (line {layout.header_line}) but" if layout.header_line else ""
         raise IntakeError(
-            f"'{display}' has {where} no data rows; add rows of numbers below the header, or "
-            f"choose another file."
+            f"'{display}' has {where} no data rows; add rows of numbers below the header, or choose another file."
         )
     if len(numeric_names) < 2:
-        found = (
-            f"only one numeric column ({numeric_names[0]!r})" if numeric_names else "no numeric columns"
-        )
+        found = f"only one numeric column ({numeric_names[0]!r})" if numeric_names else "no numeric columns"
         if time_names:
             raise IntakeError(
                 f"'{display}' has {found}, and '{time_names[0]}' holds dates or times, which are "
@@ -1519,11 +1497,7 @@ def _finish(display: str, encoding: str, layout: _Layout, cols: _Columns) -> Tab
     # One float64 block for the numeric columns, then the text columns, in file order.
     n_rows = len(cols.lines)
     numeric_frame = pd.DataFrame(
-        (
-            np.column_stack([column_data[c] for c in numeric_names])
-            if n_rows
-            else np.empty((0, len(numeric_names)))
-        ),
+        (np.column_stack([column_data[c] for c in numeric_names]) if n_rows else np.empty((0, len(numeric_names)))),
         columns=pd.Index(numeric_names),
         index=pd.RangeIndex(n_rows),
     )

@@ -236,7 +236,9 @@ def _cholesky_ld(g: np.ndarray) -> np.ndarray | None:
     return r
 
 
-def _polish_decimal(x, y, w, offset, scale, through_origin, c_ld, factor, gram, contraction: float = 1.0, max_steps: int = 4):
+def _polish_decimal(
+    x, y, w, offset, scale, through_origin, c_ld, factor, gram, contraction: float = 1.0, max_steps: int = 4
+):
     """Refinement steps with the residual and gradient in 50-digit decimals.
 
     Longdouble residuals carry rounding of about 1e-19 times |y|. When the
@@ -285,14 +287,18 @@ def _polish_decimal(x, y, w, offset, scale, through_origin, c_ld, factor, gram, 
             g_ld = np.array([LD(str(gv)) for gv in grad], dtype=LD)
             dc = _solve_rtr(factor, g_ld)
             dcd = [_basis.as_decimal(c) for c in dc]
-            coef = [ck + dk for ck, dk in zip(coef, dcd)]
-            gd = sum((a * b for a, b in zip(dcd, grad)), D(0))
+            coef = [ck + dk for ck, dk in zip(coef, dcd, strict=False)]
+            gd = sum((a * b for a, b in zip(dcd, grad, strict=False)), D(0))
             quad = sum((dcd[i] * gram_dec[i][j] * dcd[j] for i in range(p) for j in range(p)), D(0))
             rss_new = rss - 2 * gd + quad
             size = max(abs(c) for c in coef)
             step = max(abs(d) for d in dcd)
             # stop when this step, or the predicted next one (contraction x step), is below 1e-25 relative
-            if size == 0 or step <= D("1e-25") * size or (contraction < 0.5 and D(contraction) * step <= D("1e-25") * size):
+            if (
+                size == 0
+                or step <= D("1e-25") * size
+                or (contraction < 0.5 and D(contraction) * step <= D("1e-25") * size)
+            ):
                 settled = True
                 break
             if prev is not None and step > prev / 2:
@@ -549,7 +555,9 @@ class PolynomialFit:
         except FitError:
             raise
         except (KeyError, TypeError, ValueError, IndexError, OverflowError, AttributeError) as exc:
-            raise FitError(f"The model file is incomplete or malformed ({exc!s}); re-save it with degreescope.") from None
+            raise FitError(
+                f"The model file is incomplete or malformed ({exc!s}); re-save it with degreescope."
+            ) from None
 
 
 def _num(v: float) -> float | None:
@@ -699,7 +707,17 @@ def fit_polynomial(
     coef_exact = gram_dec = rss_dec = None
     if n * ncols <= POLISH_LIMIT:
         polished = _polish_decimal(
-            x, y, w, offset, scale, through_origin, c_ld, factor, gram, contraction=contraction, max_steps=4 if settled else 12
+            x,
+            y,
+            w,
+            offset,
+            scale,
+            through_origin,
+            c_ld,
+            factor,
+            gram,
+            contraction=contraction,
+            max_steps=4 if settled else 12,
         )
         if polished[3]:  # keep the decimal result only when it settled
             coef_exact, rss_dec, gram_dec, settled = polished

@@ -64,7 +64,17 @@ import numpy as np
 from . import _basis
 from ._errors import ColumnError, DegreescopeError, FitError, IntakeError
 from ._polyfit import qr_r
-from ._sweep import MAX_DEGREE, Block, DegreeSweep, Split, block_factor, cap_degrees, holdout_fraction, normalise_degrees, sweep_from_blocks
+from ._sweep import (
+    MAX_DEGREE,
+    Block,
+    DegreeSweep,
+    Split,
+    block_factor,
+    cap_degrees,
+    holdout_fraction,
+    normalise_degrees,
+    sweep_from_blocks,
+)
 
 __all__ = ["sweep_source", "fold_labels", "holdout_mask"]
 
@@ -193,14 +203,19 @@ def _resolve(source) -> _Source:
     try:
         src = os.fspath(source)
     except TypeError:
-        raise IntakeError(f"The source must be a file path, folder or glob pattern, not {type(source).__name__}.") from None
+        raise IntakeError(
+            f"The source must be a file path, folder or glob pattern, not {type(source).__name__}."
+        ) from None
     if os.path.isdir(src):
         paths = sorted(
-            p for p in _glob.glob(os.path.join(src, "**", "*"), recursive=True)
+            p
+            for p in _glob.glob(os.path.join(src, "**", "*"), recursive=True)
             if os.path.isfile(p) and p.lower().endswith(_PARQUET_SUFFIXES)
         )
         if not paths:
-            raise IntakeError(f"The folder {src} holds no Parquet files (*.parquet); point at a file or another folder.")
+            raise IntakeError(
+                f"The folder {src} holds no Parquet files (*.parquet); point at a file or another folder."
+            )
         return _parquet_source(paths)
     if os.path.isfile(src):
         if _is_parquet_file(src):
@@ -229,7 +244,9 @@ def _parquet_source(paths: list[str]) -> _Source:
         if schema is None:
             schema = s
         elif s.names != schema.names:
-            raise IntakeError(f"{p} has other columns than {paths[0]}; a folder or pattern must hold files of one layout.")
+            raise IntakeError(
+                f"{p} has other columns than {paths[0]}; a folder or pattern must hold files of one layout."
+            )
     numeric = [f.name for f in schema if pa.types.is_integer(f.type) or pa.types.is_floating(f.type)]
     return _Source("parquet", paths, list(schema.names), numeric)
 
@@ -314,7 +331,9 @@ def _pick_columns(src: _Source, x, y) -> tuple[str, str]:
     def check(name, what):
         if isinstance(name, int) and not isinstance(name, bool):
             if not 0 <= name < len(src.names):
-                raise ColumnError(f"There is no column number {name} for {what}; the file has {len(src.names)} columns.")
+                raise ColumnError(
+                    f"There is no column number {name} for {what}; the file has {len(src.names)} columns."
+                )
             return src.names[name]
         if name not in src.names:
             shown = ", ".join(repr(n) for n in src.names[:12])
@@ -370,7 +389,9 @@ class _Counter:
         return "skip"
 
 
-def _csv_chunks(src: _Source, x: str, y: str, chunk_rows: int, as_text: bool) -> Iterator[tuple[np.ndarray, np.ndarray, int]]:
+def _csv_chunks(
+    src: _Source, x: str, y: str, chunk_rows: int, as_text: bool
+) -> Iterator[tuple[np.ndarray, np.ndarray, int]]:
     import pyarrow as pa
     import pyarrow.csv as pcsv
 
@@ -497,7 +518,9 @@ def _scan_chunk(xa: np.ndarray, ya: np.ndarray, invalid: int, stats: _Stats) -> 
         stats.ymin, stats.ymax = min(stats.ymin, float(ys.min())), max(stats.ymax, float(ys.max()))
 
 
-def _reduce_chunk(xa: np.ndarray, ya: np.ndarray, start: int, invalid: int, plan: _Plan, blocks: dict, stats: _Stats) -> None:
+def _reduce_chunk(
+    xa: np.ndarray, ya: np.ndarray, start: int, invalid: int, plan: _Plan, blocks: dict, stats: _Stats
+) -> None:
     """Fold one chunk into the running per-label factors ``blocks`` and the ``stats``."""
     n_read = xa.shape[0]
     stats.rows_read += n_read
@@ -664,7 +687,9 @@ def _one_blas_thread():
 
 def _finish(blocks, stats, degs, ncols, labeller, offset, scale, notes, xname, yname) -> DegreeSweep:
     if stats.rows_used == 0:
-        raise ColumnError(f"The columns {xname!r} and {yname!r} hold no rows where both are finite numbers; choose other columns.")
+        raise ColumnError(
+            f"The columns {xname!r} and {yname!r} hold no rows where both are finite numbers; choose other columns."
+        )
     if stats.xmax <= stats.xmin:
         raise FitError("x has fewer than two distinct values; a curve needs at least two. Choose another x column.")
     present = sorted(blocks)
@@ -677,7 +702,9 @@ def _finish(blocks, stats, degs, ncols, labeller, offset, scale, notes, xname, y
             raise FitError("Fewer than 2 folds received rows; use fewer folds or more data.")
         empty = [lab for lab in range(labeller.k) if lab not in blocks]
         if empty:
-            notes.append(f"{len(empty)} of {labeller.k} folds received no rows and were left out; use fewer folds for so few rows.")
+            notes.append(
+                f"{len(empty)} of {labeller.k} folds received no rows and were left out; use fewer folds for so few rows."
+            )
         splits = [Split(test=(j,), train=tuple(o for o in present if o != j)) for j in present]
         scheme = f"{labeller.k}-fold cross-validation by row hash (seed {labeller.seed})"
     else:
@@ -796,7 +823,9 @@ def _run_numpy(src, x, y, ncols, labeller, chunk_rows, progress):
                 continue
             break
         if scan.rows_used == 0:
-            raise ColumnError(f"The columns {x!r} and {y!r} hold no rows where both are finite numbers; choose other columns.")
+            raise ColumnError(
+                f"The columns {x!r} and {y!r} hold no rows where both are finite numbers; choose other columns."
+            )
         total, lo, hi = scan.rows_read, scan.xmin, scan.xmax
     while True:
         offset, scale = _basis.domain_map(lo, hi)
@@ -850,9 +879,13 @@ def _dask_client(scheduler):
         try:
             client = distributed.Client(scheduler, set_as_default=False, timeout=_CONNECT_TIMEOUT)
         except (OSError, TimeoutError) as exc:
-            raise FitError(f"Cannot reach the dask scheduler at {scheduler} ({_first_line(exc)}); check the address.") from None
+            raise FitError(
+                f"Cannot reach the dask scheduler at {scheduler} ({_first_line(exc)}); check the address."
+            ) from None
         return client, [client]
-    raise FitError(f"The scheduler must be an address such as tcp://host:8786 or a distributed.Client, not {scheduler!r}.")
+    raise FitError(
+        f"The scheduler must be an address such as tcp://host:8786 or a distributed.Client, not {scheduler!r}."
+    )
 
 
 def _csv_ranges(src: _Source, block: int) -> list[tuple[int, int]]:
@@ -871,7 +904,7 @@ def _csv_ranges(src: _Source, block: int) -> list[tuple[int, int]]:
             cuts.append(nxt)
             pos = nxt + block
     cuts.append(size)
-    return [(a, b) for a, b in zip(cuts[:-1], cuts[1:]) if b > a]
+    return [(a, b) for a, b in zip(cuts[:-1], cuts[1:], strict=False) if b > a]
 
 
 def _read_piece(kind: str, path: str, part, x: str, y: str, names: list[str], as_text: bool):
@@ -897,7 +930,9 @@ def _read_piece(kind: str, path: str, part, x: str, y: str, names: list[str], as
     try:
         table = pcsv.read_csv(
             io.BytesIO(data),
-            read_options=pcsv.ReadOptions(column_names=names, block_size=max(len(data) + 1, 1 << 16), use_threads=False),
+            read_options=pcsv.ReadOptions(
+                column_names=names, block_size=max(len(data) + 1, 1 << 16), use_threads=False
+            ),
             parse_options=pcsv.ParseOptions(invalid_row_handler=counter),
             convert_options=pcsv.ConvertOptions(include_columns=[x, y], column_types={x: ktype, y: ktype}),
         )
@@ -947,7 +982,10 @@ def _run_dask(src, x, y, ncols, labeller, scheduler, progress):
         else:
             while True:
                 passes += 1
-                futs = [client.submit(_dask_scan_task, src.kind, p, part, x, y, src.names, as_text, pure=False) for p, part, _ in pieces]
+                futs = [
+                    client.submit(_dask_scan_task, src.kind, p, part, x, y, src.names, as_text, pure=False)
+                    for p, part, _ in pieces
+                ]
                 scans = client.gather(futs)
                 if any(isinstance(s, str) for s in scans):
                     as_text = True
@@ -957,7 +995,9 @@ def _run_dask(src, x, y, ncols, labeller, scheduler, progress):
             for s in scans:
                 scan.merge(s)
             if scan.rows_used == 0:
-                raise ColumnError(f"The columns {x!r} and {y!r} hold no rows where both are finite numbers; choose other columns.")
+                raise ColumnError(
+                    f"The columns {x!r} and {y!r} hold no rows where both are finite numbers; choose other columns."
+                )
             counts = [s.rows_read for s in scans]
             total, lo, hi = scan.rows_read, scan.xmin, scan.xmax
         starts = np.concatenate([[0], np.cumsum(counts)[:-1]]).astype(np.int64)
@@ -969,7 +1009,7 @@ def _run_dask(src, x, y, ncols, labeller, scheduler, progress):
             plan = _Plan(ncols, offset, scale, labeller)
             futs = [
                 client.submit(_dask_reduce_task, src.kind, p, part, int(s0), x, y, src.names, as_text, plan, pure=False)
-                for (p, part, _), s0 in zip(pieces, starts)
+                for (p, part, _), s0 in zip(pieces, starts, strict=False)
             ]
             blocks: dict = {}
             stats = _Stats()
@@ -988,7 +1028,9 @@ def _run_dask(src, x, y, ncols, labeller, scheduler, progress):
     except DegreescopeError:
         raise
     except Exception as exc:  # a worker or scheduler failure: one sentence, with its first line
-        raise FitError(f"The dask computation failed ({_first_line(exc)}); check the cluster and the source path.") from None
+        raise FitError(
+            f"The dask computation failed ({_first_line(exc)}); check the cluster and the source path."
+        ) from None
     finally:
         for obj in to_close:
             obj.close()

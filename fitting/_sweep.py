@@ -42,9 +42,19 @@ from scipy.linalg import solve_triangular
 
 from . import _basis
 from ._errors import FitError
-from ._polyfit import condition_of, qr_r, t_quantile, single_thread_blas, validate_xyw
+from ._polyfit import condition_of, qr_r, single_thread_blas, t_quantile, validate_xyw
 
-__all__ = ["DegreeSweep", "sweep_degrees", "Block", "Split", "sweep_from_blocks", "block_factor", "normalise_degrees", "cap_degrees", "holdout_fraction"]
+__all__ = [
+    "DegreeSweep",
+    "sweep_degrees",
+    "Block",
+    "Split",
+    "sweep_from_blocks",
+    "block_factor",
+    "normalise_degrees",
+    "cap_degrees",
+    "holdout_fraction",
+]
 
 MAX_DEGREE = 20
 # thresholds for diagnoses: common practice, no source; chosen for this tool
@@ -72,7 +82,9 @@ class Block:
         if len(blocks) == 1:
             return blocks[0]
         r = qr_r(np.vstack([b.r for b in blocks]))
-        return Block(r=r, n=sum(b.n for b in blocks), wsum=sum(b.wsum for b in blocks), wysum=sum(b.wysum for b in blocks))
+        return Block(
+            r=r, n=sum(b.n for b in blocks), wsum=sum(b.wsum for b in blocks), wysum=sum(b.wysum for b in blocks)
+        )
 
 
 @dataclass(frozen=True)
@@ -285,8 +297,7 @@ def _partition(x, *, folds, holdout, ordered, repeats, seed):
             raise FitError(f"Cross-validation needs at least 2 folds, not {k}; 5 or 10 are common.")
         if k > n:
             raise FitError(
-                f"Cannot make {k} folds from {n} rows; use at most {n} folds "
-                f"(10 is common, or leave-one-out with {n})."
+                f"Cannot make {k} folds from {n} rows; use at most {n} folds (10 is common, or leave-one-out with {n})."
             )
         from sklearn.model_selection import KFold, RepeatedKFold
 
@@ -301,7 +312,9 @@ def _partition(x, *, folds, holdout, ordered, repeats, seed):
             f = i % k
             labels[test_idx] = f
             if f == k - 1:
-                parts.append((labels.copy(), [Split(test=(j,), train=tuple(o for o in range(k) if o != j)) for j in range(k)]))
+                parts.append(
+                    (labels.copy(), [Split(test=(j,), train=tuple(o for o in range(k) if o != j)) for j in range(k)])
+                )
         scheme = f"{k}-fold cross-validation (seed {seed}" + (f", {repeats} repeats)" if repeats > 1 else ")")
         return parts, scheme
 
@@ -318,7 +331,9 @@ def _partition(x, *, folds, holdout, ordered, repeats, seed):
         labels = labels.astype(np.int64)
     k = uniq.size
     if k < 2:
-        raise FitError(f"Grouped or predefined folds need at least 2 distinct labels; found {k}. Choose another group column.")
+        raise FitError(
+            f"Grouped or predefined folds need at least 2 distinct labels; found {k}. Choose another group column."
+        )
     others = lambda j: tuple(o for o in range(k) if o != j) + ((-1,) if (labels == -1).any() else ())  # noqa: E731
     splits = [Split(test=(j,), train=others(j)) for j in range(k)]
     return [(labels, splits)], f"{k} predefined or grouped folds"
@@ -362,8 +377,17 @@ def sweep_degrees(
     weights : array-like of positive floats, default=None
     """
     with single_thread_blas():
-        return _sweep_degrees(x, y, degrees=degrees, folds=folds, holdout=holdout, ordered=ordered,
-                              repeats=repeats, seed=seed, weights=weights)
+        return _sweep_degrees(
+            x,
+            y,
+            degrees=degrees,
+            folds=folds,
+            holdout=holdout,
+            ordered=ordered,
+            repeats=repeats,
+            seed=seed,
+            weights=weights,
+        )
 
 
 def _sweep_degrees(x, y, *, degrees, folds, holdout, ordered, repeats, seed, weights) -> DegreeSweep:
@@ -413,7 +437,9 @@ def _sweep_degrees(x, y, *, degrees, folds, holdout, ordered, repeats, seed, wei
         single_split_rule=holdout is not None and repeats == 1 or (holdout is not None and ordered),
         display_block=display_block,
         display_domain=(
-            (float(x[~test_mask].min()), float(x[~test_mask].max())) if test_mask is not None else (float(x.min()), float(x.max()))
+            (float(x[~test_mask].min()), float(x[~test_mask].max()))
+            if test_mask is not None
+            else (float(x.min()), float(x.max()))
         ),
         test_mask=test_mask,
     )
@@ -634,7 +660,10 @@ def sweep_from_blocks(
     margin = se[imin] if has_se else NO_SE_RISE * test_rmse[imin]
     rises = np.array(
         [
-            i > imin and bool(finite[i]) and test_rmse[i] > test_rmse[imin] + margin and train_rmse[i] < train_rmse[imin]
+            i > imin
+            and bool(finite[i])
+            and test_rmse[i] > test_rmse[imin] + margin
+            and train_rmse[i] < train_rmse[imin]
             for i in range(ndeg)
         ]
     )

@@ -71,14 +71,15 @@ def _format_block(columns: list[np.ndarray], formats: list[str]) -> bytes:
     if n == 0:
         return b""
     line = np.strings.mod(formats[0], columns[0])
-    for column, fmt in zip(columns[1:], formats[1:]):
+    for column, fmt in zip(columns[1:], formats[1:], strict=False):
         line = np.strings.add(np.strings.add(line, ","), np.strings.mod(fmt, column))
     line = np.strings.add(line, "\n")
     return "".join(line.tolist()).encode("utf-8")
 
 
-def _header(title: str, scenario: str, units: str, seed: int, names: list[str],
-            *, extra: list[str] = (), command: str = COMMAND) -> bytes:
+def _header(
+    title: str, scenario: str, units: str, seed: int, names: list[str], *, extra: list[str] = (), command: str = COMMAND
+) -> bytes:
     """The ``#`` comment block and the header row of one file."""
     lines = [
         f"# {title}",
@@ -148,12 +149,13 @@ def sensor_calibration() -> bytes:
         "temperature in degrees Celsius; batch = calibration run number, 1 to 4 (no unit).",
         SEED_SENSOR_CALIBRATION,
         ["output (mV)", "temperature (°C)", "batch"],
-        extra=["Caution: a demonstration only. A real calibration follows the applicable "
-               "standards, local codes and accredited or licensed practice."],
+        extra=[
+            "Caution: a demonstration only. A real calibration follows the applicable "
+            "standards, local codes and accredited or licensed practice."
+        ],
     )
     body = _format_block(
-        [_fixed(np.concatenate(volts), 2), _fixed(np.concatenate(temps), 3),
-         np.concatenate(batch)],
+        [_fixed(np.concatenate(volts), 2), _fixed(np.concatenate(temps), 3), np.concatenate(batch)],
         ["%.2f", "%.3f", "%d"],
     )
     return head + body
@@ -196,8 +198,7 @@ def dose_response() -> bytes:
         "Assay signal against dose (invented)",
         "An invented plate assay read the absorbance of 30 wells, one blank and 29 doses "
         "from 0.5 to 60 mg/L, and the signal levels off at high dose.",
-        "dose (mg/L) = dose in milligrams per litre; absorbance (AU) = absorbance in "
-        "absorbance units.",
+        "dose (mg/L) = dose in milligrams per litre; absorbance (AU) = absorbance in absorbance units.",
         SEED_DOSE_RESPONSE,
         ["dose (mg/L)", "absorbance (AU)"],
         extra=["Caution: a demonstration only, not for clinical, safety or regulatory use."],
@@ -289,14 +290,17 @@ def main(argv: list[str] | None = None) -> int:
         description="Write degreescope's invented sample datasets (numpy only, fixed seeds).",
     )
     parser.add_argument(
-        "--large", type=_positive_int, metavar="N",
+        "--large",
+        type=_positive_int,
+        metavar="N",
         help="instead of the committed files, write sensor_log_N.csv with N rows "
-             "(into sample_data/generated/ unless --out is given)",
+        "(into sample_data/generated/ unless --out is given)",
     )
     parser.add_argument(
-        "--out", type=Path, metavar="DIR",
-        help="folder to write into (default: sample_data/ for the committed files, "
-             "sample_data/generated/ for --large)",
+        "--out",
+        type=Path,
+        metavar="DIR",
+        help="folder to write into (default: sample_data/ for the committed files, sample_data/generated/ for --large)",
     )
     args = parser.parse_args(argv)
 
@@ -305,8 +309,7 @@ def main(argv: list[str] | None = None) -> int:
         out = args.out if args.out is not None else HERE / "generated"
         path = out / f"sensor_log_{args.large}.csv"
         size = _write_atomically(path, sensor_log_chunks(args.large))
-        print(f"wrote {path} ({args.large} rows, {size / 1e6:.1f} MB) "
-              f"in {time.perf_counter() - started:.1f} s")
+        print(f"wrote {path} ({args.large} rows, {size / 1e6:.1f} MB) in {time.perf_counter() - started:.1f} s")
         return 0
 
     out = args.out if args.out is not None else HERE

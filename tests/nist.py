@@ -134,14 +134,18 @@ def exact_least_squares(x, y, degree: int, *, weights=None, through_origin: bool
     """
     xs = [Fraction(v) if isinstance(v, (int, str, Fraction)) else Fraction(float(v)) for v in x]
     ys = [Fraction(v) if isinstance(v, (int, str, Fraction)) else Fraction(float(v)) for v in y]
-    ws = [Fraction(1)] * len(xs) if weights is None else [Fraction(v) if isinstance(v, (int, str, Fraction)) else Fraction(float(v)) for v in weights]
+    ws = (
+        [Fraction(1)] * len(xs)
+        if weights is None
+        else [Fraction(v) if isinstance(v, (int, str, Fraction)) else Fraction(float(v)) for v in weights]
+    )
     powers = list(range(1 if through_origin else 0, degree + 1))
     p = len(powers)
     # power sums S_k = sum w x^k, and b_k = sum w x^k y
     maxk = 2 * degree
     s = [Fraction(0)] * (maxk + 1)
     b = [Fraction(0)] * (degree + 1)
-    for xi, yi, wi in zip(xs, ys, ws):
+    for xi, yi, wi in zip(xs, ys, ws, strict=False):
         v = wi
         for k in range(maxk + 1):
             s[k] += v
@@ -154,17 +158,17 @@ def exact_least_squares(x, y, degree: int, *, weights=None, through_origin: bool
     c = [sum(inv[i][j] * rhs[j] for j in range(p)) for i in range(p)]
     coef = ([Fraction(0)] if through_origin else []) + c
     rss = Fraction(0)
-    for xi, yi, wi in zip(xs, ys, ws):
+    for xi, yi, wi in zip(xs, ys, ws, strict=False):
         f = Fraction(0)
         for ck in reversed(coef):
             f = f * xi + ck
         rss += wi * (yi - f) ** 2
     wsum = sum(ws)
     if through_origin:
-        tss = sum(wi * yi * yi for yi, wi in zip(ys, ws))
+        tss = sum(wi * yi * yi for yi, wi in zip(ys, ws, strict=False))
     else:
-        ybar = sum(wi * yi for yi, wi in zip(ys, ws)) / wsum
-        tss = sum(wi * (yi - ybar) ** 2 for yi, wi in zip(ys, ws))
+        ybar = sum(wi * yi for yi, wi in zip(ys, ws, strict=False)) / wsum
+        tss = sum(wi * (yi - ybar) ** 2 for yi, wi in zip(ys, ws, strict=False))
     return ExactFit(coefficients=coef, inverse_gram=inv, rss=rss, tss=tss, dof=len(xs) - p)
 
 
@@ -179,11 +183,15 @@ def _inverse(g: list[list[Fraction]]) -> list[list[Fraction]]:
         for r in range(n):
             if r != c and m[r][c] != 0:
                 f = m[r][c]
-                m[r] = [a - f * bb for a, bb in zip(m[r], m[c])]
+                m[r] = [a - f * bb for a, bb in zip(m[r], m[c], strict=False)]
     return [row[n:] for row in m]
 
 
 def lre_float(estimate: float, reference: float | Fraction) -> float:
     """LRE against a reference value (a float rounded once from exact, or a Fraction)."""
-    ref = Decimal(reference.numerator) / Decimal(reference.denominator) if isinstance(reference, Fraction) else Decimal(float(reference))
+    ref = (
+        Decimal(reference.numerator) / Decimal(reference.denominator)
+        if isinstance(reference, Fraction)
+        else Decimal(float(reference))
+    )
     return lre(estimate, ref)

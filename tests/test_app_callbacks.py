@@ -17,14 +17,26 @@ def data_url(text: str) -> str:
 
 
 DECIMAL_COMMA = "Spannung (V);Strom (mA)\n" + "\n".join(
-    f"{v / 10:.1f}".replace(".", ",") + ";" + f"{2 + 3 * v / 10 + 0.2 * (v / 10) ** 2 + 0.01 * (v % 3):.3f}".replace(".", ",")
+    f"{v / 10:.1f}".replace(".", ",")
+    + ";"
+    + f"{2 + 3 * v / 10 + 0.2 * (v / 10) ** 2 + 0.01 * (v % 3):.3f}".replace(".", ",")
     for v in range(1, 41)
 )
 
 
 def split(service, store, **kw):
-    args = dict(x=store["x"], y=store["y"], weights=None, group=None, mode="holdout", holdout=25, folds=10, seed=0,
-                degree=None, bands=["confidence"])
+    args = dict(
+        x=store["x"],
+        y=store["y"],
+        weights=None,
+        group=None,
+        mode="holdout",
+        holdout=25,
+        folds=10,
+        seed=0,
+        degree=None,
+        bands=["confidence"],
+    )
     args.update(kw)
     return cb.on_split(service, store, *args.values())
 
@@ -120,8 +132,18 @@ def test_factory_is_side_effect_free_on_import_and_builds_an_app():
     assert isinstance(a, dash.Dash) and a.server is not None
     layout = a.layout() if callable(a.layout) else a.layout
     ids_in_page = {c.id for c in layout._traverse() if getattr(c, "id", None)}
-    for stable in (ids.UPLOAD, ids.X_COLUMN, ids.Y_COLUMN, ids.DEGREE, ids.HOLDOUT, ids.FIT_CHART, ids.ERROR_CHART,
-                   ids.OVERFIT_ALERT, ids.RECOMMENDED_DEGREE, ids.COEFFICIENTS):
+    for stable in (
+        ids.UPLOAD,
+        ids.X_COLUMN,
+        ids.Y_COLUMN,
+        ids.DEGREE,
+        ids.HOLDOUT,
+        ids.FIT_CHART,
+        ids.ERROR_CHART,
+        ids.OVERFIT_ALERT,
+        ids.RECOMMENDED_DEGREE,
+        ids.COEFFICIENTS,
+    ):
         assert stable in ids_in_page, stable
     upload = next(c for c in layout._traverse() if getattr(c, "id", None) == ids.UPLOAD)
     assert upload.max_size > 5000  # a bit above, so the server's message is what users see

@@ -3,8 +3,8 @@
 from __future__ import annotations
 
 import numpy as np
-import plotly.io.json
 import plotly.graph_objects as go
+import plotly.io.json
 
 from app import figures, ids
 from app.service import Columns, SplitSettings

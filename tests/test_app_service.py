@@ -109,7 +109,7 @@ def test_many_rows_are_drawn_as_a_labelled_sample_but_fitted_in_full(fit_service
     n = 30_000
     x = np.sort(rng.uniform(0, 10, n))
     y = 1 + 0.5 * x - 0.03 * x**2 + rng.normal(0, 0.1, n)
-    text = "t (s),v (V)\n" + "\n".join(f"{a:.6f},{b:.6f}" for a, b in zip(x, y))
+    text = "t (s),v (V)\n" + "\n".join(f"{a:.6f},{b:.6f}" for a, b in zip(x, y, strict=False))
     info = fit_service.load_bytes(text.encode(), "big.csv")
     cols = Columns(info.default_x, info.default_y)
     view = fit_service.split_view(info.id, cols, SplitSettings())

@@ -10,7 +10,6 @@ from __future__ import annotations
 import re
 
 import pytest
-
 from browser_support import (
     ARTIFACTS,
     ServerThread,
@@ -137,7 +136,10 @@ def test_mouse_drag_moves_the_degree(page):
     for i in range(1, 11):
         page.mouse.move(thumb["x"] + (target - thumb["x"]) * i / 10, thumb["y"] + thumb["height"] / 2)
         page.wait_for_timeout(30)
-    page.wait_for_function("(d0) => !document.querySelector('#fit-chart .js-plotly-plot')._fullLayout.title.text.startsWith('Degree ' + d0 + ' ')", arg=d0)
+    page.wait_for_function(
+        "(d0) => !document.querySelector('#fit-chart .js-plotly-plot')._fullLayout.title.text.startsWith('Degree ' + d0 + ' ')",
+        arg=d0,
+    )
     page.mouse.up()
     wait_degree(page, 10)
     assert trace(page, ERR, CURRENT)["x"] == [10]
@@ -146,7 +148,10 @@ def test_mouse_drag_moves_the_degree(page):
 
 def test_upload_with_decimal_comma_shows_intake_and_new_charts(page, tmp_path):
     f = tmp_path / "strom_messung.csv"
-    rows = [f"{v / 10:.1f};{2 + 3 * v / 10 + 0.2 * (v / 10) ** 2 + 0.05 * ((v * 7) % 5 - 2):.3f}".replace(".", ",") for v in range(1, 61)]
+    rows = [
+        f"{v / 10:.1f};{2 + 3 * v / 10 + 0.2 * (v / 10) ** 2 + 0.05 * ((v * 7) % 5 - 2):.3f}".replace(".", ",")
+        for v in range(1, 61)
+    ]
     f.write_text("Spannung (V);Strom (mA)\n" + "\n".join(rows) + "\n", encoding="utf-8")
     upload(page, f)
     page.wait_for_function("() => document.getElementById('intake-report').innerText.includes('strom_messung.csv')")
@@ -154,7 +159,9 @@ def test_upload_with_decimal_comma_shows_intake_and_new_charts(page, tmp_path):
     assert "semicolon" in report and "decimal mark ','" in report and "60 data rows" in report
     wait_for_title(page, FIT, "Strom (mA) against Spannung (V)")
     assert len(trace(page, FIT, 0)["x"]) + len(trace(page, FIT, 1)["x"]) == 60
-    assert "(V)" in page.evaluate("() => document.querySelector('#fit-chart .js-plotly-plot')._fullLayout.xaxis.title.text")
+    assert "(V)" in page.evaluate(
+        "() => document.querySelector('#fit-chart .js-plotly-plot')._fullLayout.xaxis.title.text"
+    )
     shot(page, "03-decimal-comma-upload")
 
 
@@ -204,7 +211,7 @@ def test_png_download_is_a_presentation_sized_png(page, tmp_path):
     (ARTIFACTS / "06-fit-download.png").write_bytes(data)
     with page.expect_download() as dl:
         page.click("#error-svg")
-    svg = (tmp_path / "err.svg")
+    svg = tmp_path / "err.svg"
     dl.value.save_as(svg)
     text = svg.read_text()
     assert text.startswith("<svg") and "Error by degree" in text and "polynomial degree" in text

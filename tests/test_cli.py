@@ -91,7 +91,7 @@ def nist(name: str):
 
 def write_xy_csv(path: Path, x, y, *, names=("x", "y"), extra=None):
     lines = [",".join(names + tuple(extra or {}))]
-    for i, (a, b) in enumerate(zip(x, y)):
+    for i, (a, b) in enumerate(zip(x, y, strict=False)):
         cells = [repr(float(a)), repr(float(b))] + [repr(float(v[i])) for v in (extra or {}).values()]
         lines.append(",".join(cells))
     path.write_text("\n".join(lines) + "\n")
@@ -113,8 +113,22 @@ def test_fit_json_matches_nist_certified_values(tmp_path, name, degree):
     x, y, cert = nist(name)
     csv = write_xy_csv(tmp_path / f"{name}.csv", x, y)
     d, _ = run_json("fit", csv, "--degree", degree)
-    for key in ("coefficients", "standard_errors", "residual_sd", "r_squared", "degree", "rows_used",
-                "rows_dropped", "intake", "equation", "adjusted_r_squared", "rmse", "dof", "domain", "warnings"):
+    for key in (
+        "coefficients",
+        "standard_errors",
+        "residual_sd",
+        "r_squared",
+        "degree",
+        "rows_used",
+        "rows_dropped",
+        "intake",
+        "equation",
+        "adjusted_r_squared",
+        "rmse",
+        "dof",
+        "domain",
+        "warnings",
+    ):
         assert key in d, key
     assert d["degree"] == degree and d["rows_used"] == x.size and d["rows_dropped"] == 0
     assert len(d["coefficients"]) == len(d["standard_errors"]) == degree + 1
@@ -214,8 +228,20 @@ def test_sweep_json_matches_scikit_learn_kfold():
     frame = pd.read_csv(VAN, comment="#")
     x, y = frame.iloc[:, 0].to_numpy(), frame.iloc[:, 1].to_numpy()
     d, _ = run_json("sweep", VAN, "--max-degree", 6, "--folds", 5, "--seed", 3)
-    for key in ("rows_used", "rows_dropped", "degrees", "train_rmse", "test_rmse", "test_rmse_se",
-                "recommended_degree", "recommendation_rule", "overfitting_from", "recommendation", "warnings", "scheme"):
+    for key in (
+        "rows_used",
+        "rows_dropped",
+        "degrees",
+        "train_rmse",
+        "test_rmse",
+        "test_rmse_se",
+        "recommended_degree",
+        "recommendation_rule",
+        "overfitting_from",
+        "recommendation",
+        "warnings",
+        "scheme",
+    ):
         assert key in d, key
     assert d["degrees"] == list(range(7)) and d["rows_used"] == 200 and d["rows_dropped"] == 0
     folds = _sklearn_cv_rmse(x, y, range(7), KFold(5, shuffle=True, random_state=3))
@@ -304,7 +330,9 @@ def test_predict_input_file_to_csv_is_neutralised_and_input_untouched(tmp_path):
     src.write_text('=HYPERLINK("http://example.invalid"),run,note\n100,1,a\n-50,2,b\n,3,c\n900,4,d\n')
     before = sha256(src)
     out_csv = tmp_path / "pred.csv"
-    rc, out, err = run("predict", model, "--input", src, "--x", '=HYPERLINK("http://example.invalid")', "--output", out_csv)
+    rc, out, err = run(
+        "predict", model, "--input", src, "--x", '=HYPERLINK("http://example.invalid")', "--output", out_csv
+    )
     assert rc == 0, err
     assert sha256(src) == before
     lines = out_csv.read_text().splitlines()
@@ -520,7 +548,11 @@ def _serve_process(*extra):
     env = dict(os.environ, PYTHONPATH=str(ROOT), PYTHONUNBUFFERED="1")
     return subprocess.Popen(
         [sys.executable, "-m", "app.cli", "serve", "--port", "0", "--threads", "2", *map(str, extra)],
-        stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, cwd=ROOT, env=env,
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+        cwd=ROOT,
+        env=env,
     )
 
 
@@ -604,8 +636,13 @@ def test_progress_line_only_on_a_terminal(tmp_path):
     pq.write_table(pa.table({"x": x, "y": 3 * x + rng.normal(0, 0.1, x.size)}), tmp_path / "p.parquet")
     master, slave = pty.openpty()
     env = dict(os.environ, PYTHONPATH=str(ROOT))
-    proc = subprocess.Popen([sys.executable, "-m", "app.cli", "sweep", str(tmp_path / "p.parquet"), "--max-degree", "2", "--json"],
-                            stdout=subprocess.PIPE, stderr=slave, cwd=ROOT, env=env)
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "app.cli", "sweep", str(tmp_path / "p.parquet"), "--max-degree", "2", "--json"],
+        stdout=subprocess.PIPE,
+        stderr=slave,
+        cwd=ROOT,
+        env=env,
+    )
     os.close(slave)
     out, _ = proc.communicate(timeout=TIMEOUT)
     seen = b""

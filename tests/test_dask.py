@@ -101,7 +101,7 @@ def test_dask_csv_byte_ranges_equal_numpy_engine(tmp_path, monkeypatch):
     path = tmp_path / "gauge.csv"
     with open(path, "w") as fh:
         fh.write("# Invented gauge log for tests.\n# Units: elapsed in hours, gauge in bar\nelapsed (h),gauge (bar)\n")
-        for i, (a, b) in enumerate(zip(x, y)):
+        for i, (a, b) in enumerate(zip(x, y, strict=False)):
             fh.write("oops,1\n" if i == 700 else f"{float(a)!r},{float(b)!r}\n")
     monkeypatch.setattr(stream, "_DASK_CSV_BLOCK", 4000)  # many small byte ranges
     ref, info_ref = sweep_source(path, folds=5, seed=8)
@@ -114,9 +114,16 @@ def test_dask_csv_byte_ranges_equal_numpy_engine(tmp_path, monkeypatch):
 def test_dask_with_a_given_client(parts):
     import distributed
 
-    with distributed.LocalCluster(
-        n_workers=1, threads_per_worker=2, processes=False, dashboard_address="127.0.0.1:0", worker_dashboard_address="127.0.0.1:0"
-    ) as cluster, distributed.Client(cluster, set_as_default=False) as client:
+    with (
+        distributed.LocalCluster(
+            n_workers=1,
+            threads_per_worker=2,
+            processes=False,
+            dashboard_address="127.0.0.1:0",
+            worker_dashboard_address="127.0.0.1:0",
+        ) as cluster,
+        distributed.Client(cluster, set_as_default=False) as client,
+    ):
         res, _ = sweep_source(parts, folds=4, engine="dask", scheduler=client)
         assert client.status == "running"  # a client the caller gave is left open
     ref, _ = sweep_source(parts, folds=4)

@@ -31,7 +31,9 @@ def test_fit_degree_beyond_distinct_x_raises_with_advice():
     with pytest.raises(FitError) as err:
         fit_polynomial(x, x**2, 3)
     msg = str(err.value)
-    assert "at least 4 distinct x values" in msg and "have 3" in msg and "degree 2 or lower" in msg and _is_sentence(msg)
+    assert (
+        "at least 4 distinct x values" in msg and "have 3" in msg and "degree 2 or lower" in msg and _is_sentence(msg)
+    )
 
 
 def test_through_origin_degree_limit():
@@ -94,7 +96,10 @@ def test_weights_wrong_length():
 
 @pytest.mark.parametrize("x", [np.full(10, 3.0), np.array([2.5])])
 def test_fewer_than_two_distinct_x(x):
-    for call in (lambda: fit_polynomial(x, np.arange(x.size, dtype=float), 0), lambda: sweep_degrees(x, np.arange(x.size, dtype=float))):
+    for call in (
+        lambda: fit_polynomial(x, np.arange(x.size, dtype=float), 0),
+        lambda: sweep_degrees(x, np.arange(x.size, dtype=float)),
+    ):
         with pytest.raises(FitError, match="fewer than two distinct values"):
             call()
 

@@ -43,7 +43,7 @@ def test_training_rss_never_rises_with_degree(data):
     top = min(8, np.unique(x).size - 1)
     rss = [fit_polynomial(x, y, d).rss for d in range(0, top + 1)]
     tss = float(np.sum((y - y.mean()) ** 2)) or 1.0
-    for a, b in zip(rss, rss[1:]):
+    for a, b in zip(rss, rss[1:], strict=False):
         assert b <= a + 1e-10 * tss
 
 

@@ -9,11 +9,11 @@ import json
 import numpy as np
 import pytest
 import statsmodels.api as sm
+from nist import exact_least_squares, lre_float
 from numpy.polynomial import Polynomial
 from sklearn.metrics import mean_squared_error, r2_score
 
 from fitting import PolynomialFit, fit_polynomial
-from nist import exact_least_squares, lre_float
 
 MIN_LRE = 11.0  # project contract
 RNG_SEED = 20261201
@@ -23,11 +23,11 @@ def _scores(fit: PolynomialFit, ex) -> dict[str, float]:
     coef, se, sd, r2 = ex.as_float()
     k0 = 1 if fit.through_origin else 0
     out = {
-        "coef": min(lre_float(a, b) for a, b in zip(fit.coefficients[k0:], ex.coefficients[k0:])),
+        "coef": min(lre_float(a, b) for a, b in zip(fit.coefficients[k0:], ex.coefficients[k0:], strict=False)),
         "r2": lre_float(fit.r_squared, r2),
     }
     if ex.dof > 0:
-        out["se"] = min(lre_float(a, b) for a, b in zip(fit.standard_errors[k0:], se[k0:]))
+        out["se"] = min(lre_float(a, b) for a, b in zip(fit.standard_errors[k0:], se[k0:], strict=False))
         out["sd"] = lre_float(fit.residual_sd, sd)
     return out
 
@@ -46,13 +46,37 @@ HARD_CASES = {
     "wampler-like noise 1e3": (*_wampler_like(1e3, 1), 5, None, False),
     "wampler-like noise 1e7": (*_wampler_like(1e7, 2), 5, None, False),
     "wampler-like noise 1e9": (*_wampler_like(1e9, 3), 5, None, False),
-    "origin degree 1, x 60..70": (np.arange(60.0, 71.0), np.arange(60.0, 71.0) + np.round(np.random.default_rng(4).normal(130, 5, 11)), 1, None, True),
-    "origin degree 3, x 60..70": (np.arange(60.0, 71.0), np.arange(60.0, 71.0) ** 2 / 7 + np.round(np.random.default_rng(5).normal(0, 9, 11)), 3, None, True),
+    "origin degree 1, x 60..70": (
+        np.arange(60.0, 71.0),
+        np.arange(60.0, 71.0) + np.round(np.random.default_rng(4).normal(130, 5, 11)),
+        1,
+        None,
+        True,
+    ),
+    "origin degree 3, x 60..70": (
+        np.arange(60.0, 71.0),
+        np.arange(60.0, 71.0) ** 2 / 7 + np.round(np.random.default_rng(5).normal(0, 9, 11)),
+        3,
+        None,
+        True,
+    ),
     "weighted degree 5": (*_wampler_like(1e4, 6), 5, np.random.default_rng(6).uniform(0.2, 5.0, 21), False),
     "weighted origin degree 4": (*_wampler_like(1e4, 7), 4, np.random.default_rng(7).uniform(0.2, 5.0, 21), True),
     "x offset 1e4": (1e4 + np.arange(30.0), np.round(np.random.default_rng(8).normal(0, 1, 30), 3), 3, None, False),
-    "x geometric 1..1e4, degree 10": (np.geomspace(1, 1e4, 40), np.log(np.geomspace(1, 1e4, 40)) + np.random.default_rng(9).normal(0, 0.01, 40), 10, None, False),
-    "x clumped, degree 5": (np.r_[np.random.default_rng(10).normal(0, 1e-5, 20), 1.0, 2.0, 3.0, 4.0, 5.0], np.random.default_rng(11).normal(size=25), 5, None, False),
+    "x geometric 1..1e4, degree 10": (
+        np.geomspace(1, 1e4, 40),
+        np.log(np.geomspace(1, 1e4, 40)) + np.random.default_rng(9).normal(0, 0.01, 40),
+        10,
+        None,
+        False,
+    ),
+    "x clumped, degree 5": (
+        np.r_[np.random.default_rng(10).normal(0, 1e-5, 20), 1.0, 2.0, 3.0, 4.0, 5.0],
+        np.random.default_rng(11).normal(size=25),
+        5,
+        None,
+        False,
+    ),
 }
 
 
@@ -79,7 +103,7 @@ def test_exact_fit_recovered(degree):
     ex = exact_least_squares(x, y, degree)
     assert ex.rss == 0
     fit = fit_polynomial(x, y, degree)
-    for got, want in zip(fit.coefficients, coefs):
+    for got, want in zip(fit.coefficients, coefs, strict=False):
         # a zero coefficient is scored by absolute error, as NIST does
         assert lre_float(got, want) >= MIN_LRE, (got, want)
     assert fit.r_squared == pytest.approx(1.0, abs=1e-14)
@@ -242,11 +266,18 @@ def test_model_file_round_trip_through_json(weighted, origin):
     grid = np.linspace(0, 10, 57)
     np.testing.assert_array_equal(back.predict(grid), fit.predict(grid))
     for kind in ("confidence", "prediction"):
-        for a, b in zip(back.band(grid, kind=kind, level=0.9), fit.band(grid, kind=kind, level=0.9)):
+        for a, b in zip(back.band(grid, kind=kind, level=0.9), fit.band(grid, kind=kind, level=0.9), strict=False):
             np.testing.assert_array_equal(a, b)
     np.testing.assert_array_equal(back.coefficients, fit.coefficients)
     np.testing.assert_array_equal(back.standard_errors, fit.standard_errors)
-    assert (back.degree, back.through_origin, back.dof, back.n, back.x_name, back.x_unit) == (4, origin, fit.dof, 80, "dose", "mg")
+    assert (back.degree, back.through_origin, back.dof, back.n, back.x_name, back.x_unit) == (
+        4,
+        origin,
+        fit.dof,
+        80,
+        "dose",
+        "mg",
+    )
     assert back.residual_sd == fit.residual_sd and back.r_squared == fit.r_squared
 
 

@@ -25,7 +25,9 @@ def test_importing_fitting_loads_no_dashboard_modules():
         "fit_polynomial(x, y, 2); sweep_degrees(x, y, degrees=range(4), folds=5)\n"
         f"print(json.dumps(sorted(m for m in sys.modules if m.split('.')[0] in {FORBIDDEN!r})))\n"
     )
-    out = subprocess.run([sys.executable, "-c", code], cwd=ROOT, capture_output=True, text=True, timeout=120, check=True)
+    out = subprocess.run(
+        [sys.executable, "-c", code], cwd=ROOT, capture_output=True, text=True, timeout=120, check=True
+    )
     assert json.loads(out.stdout.strip().splitlines()[-1]) == []
 
 
@@ -37,7 +39,10 @@ def _imported_roots(path: Path) -> set[str]:
             roots.update(alias.name.split(".")[0] for alias in node.names)
         elif isinstance(node, ast.ImportFrom) and node.level == 0 and node.module:
             roots.add(node.module.split(".")[0])
-        elif isinstance(node, ast.Call) and getattr(node.func, "attr", getattr(node.func, "id", None)) in ("import_module", "__import__"):
+        elif isinstance(node, ast.Call) and getattr(node.func, "attr", getattr(node.func, "id", None)) in (
+            "import_module",
+            "__import__",
+        ):
             for arg in node.args[:1]:
                 if isinstance(arg, ast.Constant) and isinstance(arg.value, str):
                     roots.add(arg.value.split(".")[0])
@@ -54,5 +59,7 @@ def test_no_engine_source_imports_the_dashboard():
 def test_the_checker_itself_sees_imports(tmp_path):
     # guard against a checker that can never fail
     probe = tmp_path / "probe.py"
-    probe.write_text("import plotly.graph_objects as go\nfrom dash import html\nimport importlib\nimportlib.import_module('app.cli')\n")
+    probe.write_text(
+        "import plotly.graph_objects as go\nfrom dash import html\nimport importlib\nimportlib.import_module('app.cli')\n"
+    )
     assert _imported_roots(probe) >= {"plotly", "dash", "app"}

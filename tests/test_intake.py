@@ -18,8 +18,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from fitting import _errors
-from fitting import _intake
+from fitting import _errors, _intake
 from fitting._errors import ColumnError, DegreescopeError, FileTooLargeError, FitError, IntakeError
 from fitting._intake import DEFAULT_MAX_BYTES, DropInfo, IntakeReport, Selection, Table, read_table
 
@@ -32,7 +31,9 @@ ERR_ENTRIES = [e for e in MANIFEST if "error" in e]
 
 def _general(source, **kw) -> Table:
     """Read with the fast path switched off (the general path only)."""
-    return _intake._read(source, max_bytes=kw.pop("max_bytes", DEFAULT_MAX_BYTES), name=kw.pop("name", None), fast=False)
+    return _intake._read(
+        source, max_bytes=kw.pop("max_bytes", DEFAULT_MAX_BYTES), name=kw.pop("name", None), fast=False
+    )
 
 
 # --------------------------------------------------------------------------- the corpus
@@ -200,7 +201,23 @@ def test_ambiguous_comma_in_semicolon_file_is_a_decimal_comma():
 
 
 def test_missing_markers_are_missing_not_unparseable():
-    markers = ["", "NA", "N/A", "n/a", "-", "--", "#N/A", "NaN", "nan", "null", "NULL", "None", "nUlL", "MISSING", "n.a."]
+    markers = [
+        "",
+        "NA",
+        "N/A",
+        "n/a",
+        "-",
+        "--",
+        "#N/A",
+        "NaN",
+        "nan",
+        "null",
+        "NULL",
+        "None",
+        "nUlL",
+        "MISSING",
+        "n.a.",
+    ]
     body = "x,y\n" + "".join(f"{i},{m}\n" for i, m in enumerate(markers)) + "100,1\n101,2\n"
     t = read_table(body.encode())
     v = t.frame["y"].to_numpy()
@@ -515,10 +532,45 @@ def test_report_and_types_are_frozen_dataclasses():
 
 
 ODD_TOKENS = [
-    "+nan", "-nan", "nan(1)", "NaN(0x1)", "nan()", "nan( )", "snan", "infinityx", "infinit", "inf.",
-    "1e", "1.e", "+.e1", "e1", "1e+", "1E+5", "0x1p3", "\uff11\uff12", "\u0663", "+-1", "1e1.5",
-    ".", "+.", "5.e-3", "-INFINITY", "in f", "1d5", "1f", "1_0", "0.", "-0", "00.5e00005", " 7 ",
-    "\u00a07", '"8"', '"NA"', "1e400", "-1e400", "1e-400",
+    "+nan",
+    "-nan",
+    "nan(1)",
+    "NaN(0x1)",
+    "nan()",
+    "nan( )",
+    "snan",
+    "infinityx",
+    "infinit",
+    "inf.",
+    "1e",
+    "1.e",
+    "+.e1",
+    "e1",
+    "1e+",
+    "1E+5",
+    "0x1p3",
+    "\uff11\uff12",
+    "\u0663",
+    "+-1",
+    "1e1.5",
+    ".",
+    "+.",
+    "5.e-3",
+    "-INFINITY",
+    "in f",
+    "1d5",
+    "1f",
+    "1_0",
+    "0.",
+    "-0",
+    "00.5e00005",
+    " 7 ",
+    "\u00a07",
+    '"8"',
+    '"NA"',
+    "1e400",
+    "-1e400",
+    "1e-400",
 ]
 
 

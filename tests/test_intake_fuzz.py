@@ -9,17 +9,16 @@ reads back to exactly the values written.
 from __future__ import annotations
 
 import json
+import re
 
 import numpy as np
 import pandas as pd
-import re
-
 from hypothesis import HealthCheck, assume, event, given, settings
 from hypothesis import strategies as st
 
 from fitting import _intake
 from fitting._errors import DegreescopeError, FitError
-from fitting._intake import DEFAULT_MAX_BYTES, read_table
+from fitting._intake import DEFAULT_MAX_BYTES
 
 FUZZ = settings(
     max_examples=200,
@@ -95,12 +94,60 @@ def test_random_bytes_after_a_signature(prefix, data):
 # --------------------------------------------------------------------------- CSV-like text
 
 _TOKENS = [
-    "", " ", "NA", "N/A", "n/a", "-", "--", "#N/A", "NaN", "nan", "null", "NULL", "None",
-    "inf", "-inf", "Infinity", "+inf", "\u221e", "\u2212\u221e", "1e999",
-    "\u22121.5", "+2", "1,250.0", "1.250,5", "1 250", "4,5e2", "1.2E-3", "3,41", ".5", "5.",
-    '"3,41"', '"1,250.0"', '"', '""', '"a\nb"', "Mean", "Total", "Note: x", "abc", "°C",
-    "µS/cm", "x (2)", "t [s]", "#DIV/0!", "0x1F", "1_000", "12..3", "\t", "+nan", "nan(1)",
-    "1e", ".", "\u00a07", "\uff11",
+    "",
+    " ",
+    "NA",
+    "N/A",
+    "n/a",
+    "-",
+    "--",
+    "#N/A",
+    "NaN",
+    "nan",
+    "null",
+    "NULL",
+    "None",
+    "inf",
+    "-inf",
+    "Infinity",
+    "+inf",
+    "\u221e",
+    "\u2212\u221e",
+    "1e999",
+    "\u22121.5",
+    "+2",
+    "1,250.0",
+    "1.250,5",
+    "1 250",
+    "4,5e2",
+    "1.2E-3",
+    "3,41",
+    ".5",
+    "5.",
+    '"3,41"',
+    '"1,250.0"',
+    '"',
+    '""',
+    '"a\nb"',
+    "Mean",
+    "Total",
+    "Note: x",
+    "abc",
+    "°C",
+    "µS/cm",
+    "x (2)",
+    "t [s]",
+    "#DIV/0!",
+    "0x1F",
+    "1_000",
+    "12..3",
+    "\t",
+    "+nan",
+    "nan(1)",
+    "1e",
+    ".",
+    "\u00a07",
+    "\uff11",
 ]
 _LINES = ["", "   ", "# comment", "// note", "; ini", "---", "|---|---|", "Instrument: X", "Date,2026-01-01"]
 
@@ -169,7 +216,9 @@ def written_table(draw):
     # A share of values with a fraction, so that a decimal comma has something to show.
     values = draw(
         st.lists(
-            st.lists(st.one_of(finite, finite.map(lambda v: v + 0.5 if abs(v) < 1e9 else v)), min_size=ncol, max_size=ncol),
+            st.lists(
+                st.one_of(finite, finite.map(lambda v: v + 0.5 if abs(v) < 1e9 else v)), min_size=ncol, max_size=ncol
+            ),
             min_size=nrow,
             max_size=nrow,
         )

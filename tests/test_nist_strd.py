@@ -16,9 +16,9 @@ from fractions import Fraction
 
 import numpy as np
 import pytest
+from nist import DATA_DIR, POLYNOMIAL_SETS, exact_least_squares, load, lre
 
 from fitting import fit_polynomial
-from nist import DATA_DIR, POLYNOMIAL_SETS, exact_least_squares, load, lre
 
 MIN_LRE = 11.0  # project contract
 
@@ -76,23 +76,103 @@ def test_lre_definition():
 
 _W1 = [sum(x**k for k in range(6)) for x in range(21)]  # Wampler1 y = 1 + x + ... + x^5 (matches Wampler1.dat)
 # Wampler3 - Wampler1 residual pattern (from memory), orthogonal to x^0..x^5 on x = 0..20
-_E = [759, -2048, 2048, -2048, 2523, -2048, 2048, -2048, 1838, -2048, 2048, -2048, 1838, -2048, 2048, -2048, 2523, -2048, 2048, -2048, 759]
+_E = [
+    759,
+    -2048,
+    2048,
+    -2048,
+    2523,
+    -2048,
+    2048,
+    -2048,
+    1838,
+    -2048,
+    2048,
+    -2048,
+    1838,
+    -2048,
+    2048,
+    -2048,
+    2523,
+    -2048,
+    2048,
+    -2048,
+    759,
+]
 
 # name: (x, y, degree, through_origin, certified coefficients, certified SEs, residual SD, R²) -- from memory
 MEMORY_SETS = {
-    "Wampler3": (list(range(21)), [a + b for a, b in zip(_W1, _E)], 5, False, ["1"] * 6,
-                 ["2152.32624678170", "2363.55173469681", "779.343524331583", "101.475507550350",
-                  "5.64566512170752", "0.112324854679312"], "2360.14502379268", "0.999995559025820"),
-    "Wampler4": (list(range(21)), [a + 100 * b for a, b in zip(_W1, _E)], 5, False, ["1"] * 6,
-                 ["215232.624678170", "236355.173469681", "77934.3524331583", "10147.5507550350",
-                  "564.566512170752", "11.2324854679312"], "236014.502379268", "0.957478440825662"),
-    "Wampler5": (list(range(21)), [a + 10000 * b for a, b in zip(_W1, _E)], 5, False, ["1"] * 6,
-                 ["21523262.4678170", "23635517.3469681", "7793435.24331583", "1014755.07550350",
-                  "56456.6512170752", "1123.24854679312"], "23601450.2379268", "0.224668921574940E-02"),
-    "NoInt1": (list(range(60, 71)), list(range(130, 141)), 1, True, ["2.07438016528926"],
-               ["0.165289256198347E-01"], "3.56753034006338", "0.999365492298663"),
-    "NoInt2": ([4, 5, 6], [3, 4, 4], 1, True, ["0.727272727272727"],
-               ["0.420827318078432E-01"], "0.369274472937998", "0.993348115299335"),
+    "Wampler3": (
+        list(range(21)),
+        [a + b for a, b in zip(_W1, _E, strict=False)],
+        5,
+        False,
+        ["1"] * 6,
+        [
+            "2152.32624678170",
+            "2363.55173469681",
+            "779.343524331583",
+            "101.475507550350",
+            "5.64566512170752",
+            "0.112324854679312",
+        ],
+        "2360.14502379268",
+        "0.999995559025820",
+    ),
+    "Wampler4": (
+        list(range(21)),
+        [a + 100 * b for a, b in zip(_W1, _E, strict=False)],
+        5,
+        False,
+        ["1"] * 6,
+        [
+            "215232.624678170",
+            "236355.173469681",
+            "77934.3524331583",
+            "10147.5507550350",
+            "564.566512170752",
+            "11.2324854679312",
+        ],
+        "236014.502379268",
+        "0.957478440825662",
+    ),
+    "Wampler5": (
+        list(range(21)),
+        [a + 10000 * b for a, b in zip(_W1, _E, strict=False)],
+        5,
+        False,
+        ["1"] * 6,
+        [
+            "21523262.4678170",
+            "23635517.3469681",
+            "7793435.24331583",
+            "1014755.07550350",
+            "56456.6512170752",
+            "1123.24854679312",
+        ],
+        "23601450.2379268",
+        "0.224668921574940E-02",
+    ),
+    "NoInt1": (
+        list(range(60, 71)),
+        list(range(130, 141)),
+        1,
+        True,
+        ["2.07438016528926"],
+        ["0.165289256198347E-01"],
+        "3.56753034006338",
+        "0.999365492298663",
+    ),
+    "NoInt2": (
+        [4, 5, 6],
+        [3, 4, 4],
+        1,
+        True,
+        ["0.727272727272727"],
+        ["0.420827318078432E-01"],
+        "0.369274472937998",
+        "0.993348115299335",
+    ),
 }
 
 
@@ -100,8 +180,8 @@ MEMORY_SETS = {
 def test_remembered_sets(name):
     x, y, degree, origin, cb, cse, csd, cr2 = MEMORY_SETS[name]
     powers = range(1 if origin else 0, degree + 1)
-    cb = {k: Decimal(v) for k, v in zip(powers, cb)}
-    cse = {k: Decimal(v) for k, v in zip(powers, cse)}
+    cb = {k: Decimal(v) for k, v in zip(powers, cb, strict=False)}
+    cse = {k: Decimal(v) for k, v in zip(powers, cse, strict=False)}
     # 1. the exact rational solution reproduces the remembered certified values (memory check)
     ex = exact_least_squares(x, y, degree, through_origin=origin)
     e_coef, e_se, e_sd, e_r2 = ex.as_float()

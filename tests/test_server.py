@@ -114,7 +114,9 @@ def test_token_flow_sets_cookie_and_refuses_without(running):
     assert cookie.startswith(f"degreescope_token_{srv.port}=s3cret-token-value")
     assert "HttpOnly" in cookie and "SameSite=Strict" in cookie
 
-    status, _, body = _request(srv.port, "/", headers={"Cookie": f"other=1; degreescope_token_{srv.port}=s3cret-token-value"})
+    status, _, body = _request(
+        srv.port, "/", headers={"Cookie": f"other=1; degreescope_token_{srv.port}=s3cret-token-value"}
+    )
     assert status == 200 and body == b"hello from the inner app"
     # a malformed cookie header is a refusal, not a crash
     status, _, _ = _request(srv.port, "/", headers={"Cookie": 'a="unterminated; ;;==; b'})
@@ -199,7 +201,12 @@ def test_traversal_out_of_a_tiny_assets_folder(running, tmp_path):
     srv = running(dash_app)
     status, _, body = _request(srv.port, "/assets/style.css")
     assert status == 200 and b"color" in body  # the folder itself is served
-    for path in ["/assets/../secret.txt", "/assets/..%2fsecret.txt", "/assets/%2e%2e/secret.txt", "/assets/%2e%2e%2fsecret.txt"]:
+    for path in [
+        "/assets/../secret.txt",
+        "/assets/..%2fsecret.txt",
+        "/assets/%2e%2e/secret.txt",
+        "/assets/%2e%2e%2fsecret.txt",
+    ]:
         status, _, body = _request(srv.port, path)
         assert status == 404, (path, status)
         assert b"NOT-FOR-THE-BROWSER" not in body
@@ -210,8 +217,13 @@ def test_dash_itself_refuses_traversal_without_the_guard(tmp_path):
     dash_app = _dash_app(tmp_path)
     build_wsgi(dash_app, host="127.0.0.1", port=1)  # registers the 404 answer for unknown scripts
     client = dash_app.server.test_client()
-    for path in ["/assets/../secret.txt", "/assets/..%2fsecret.txt", "/assets/%2e%2e%2fsecret.txt",
-                 "/_dash-component-suites/dash/dash.py", "/_dash-component-suites/dash/../../../../etc/passwd"]:
+    for path in [
+        "/assets/../secret.txt",
+        "/assets/..%2fsecret.txt",
+        "/assets/%2e%2e%2fsecret.txt",
+        "/_dash-component-suites/dash/dash.py",
+        "/_dash-component-suites/dash/../../../../etc/passwd",
+    ]:
         resp = client.get(path)
         assert resp.status_code == 404, (path, resp.status_code)
         assert b"NOT-FOR-THE-BROWSER" not in resp.data and b"root:x:" not in resp.data
@@ -264,16 +276,24 @@ def test_real_dashboard_behind_the_guard(running):
             return (exec, ("open('/tmp/degreescope-pwned', 'w').write('x')",))
 
     for payload, name in ((pickle.dumps(Boom()), "data.pkl"), (b"#!/bin/sh\nid > /tmp/degreescope-pwned\n", "run.sh")):
-        body = json.dumps({
-            "output": "..dataset.data...upload-notice.children..",
-            "outputs": [{"id": "dataset", "property": "data"}, {"id": "upload-notice", "property": "children"}],
-            "inputs": [{"id": "upload", "property": "contents",
-                        "value": "data:application/octet-stream;base64," + base64.b64encode(payload).decode()}],
-            "state": [{"id": "upload", "property": "filename", "value": name}],
-            "changedPropIds": ["upload.contents"],
-        }).encode()
-        status, _, resp = _request(srv.port, "/_dash-update-component", method="POST", body=body,
-                                   headers={"Content-Type": "application/json"})
+        body = json.dumps(
+            {
+                "output": "..dataset.data...upload-notice.children..",
+                "outputs": [{"id": "dataset", "property": "data"}, {"id": "upload-notice", "property": "children"}],
+                "inputs": [
+                    {
+                        "id": "upload",
+                        "property": "contents",
+                        "value": "data:application/octet-stream;base64," + base64.b64encode(payload).decode(),
+                    }
+                ],
+                "state": [{"id": "upload", "property": "filename", "value": name}],
+                "changedPropIds": ["upload.contents"],
+            }
+        ).encode()
+        status, _, resp = _request(
+            srv.port, "/_dash-update-component", method="POST", body=body, headers={"Content-Type": "application/json"}
+        )
         assert status == 200, resp[:300]
         answer = json.loads(resp)["response"]
         assert "dataset" not in answer or answer["dataset"].get("data") in (None, {})  # nothing was loaded
@@ -287,9 +307,11 @@ def test_malformed_callback_requests_are_400_and_the_server_keeps_serving(runnin
     from app import create_app
 
     srv = running(create_app(None))
-    upload = {"output": "..dataset.data...upload-notice.children..",
-              "outputs": [{"id": "dataset", "property": "data"}, {"id": "upload-notice", "property": "children"}],
-              "changedPropIds": ["upload.contents"]}
+    upload = {
+        "output": "..dataset.data...upload-notice.children..",
+        "outputs": [{"id": "dataset", "property": "data"}, {"id": "upload-notice", "property": "children"}],
+        "changedPropIds": ["upload.contents"],
+    }
     bodies = [
         b"[]",  # not an object
         json.dumps({"output": "no-such.thing", "inputs": []}).encode(),  # no such callback
@@ -297,12 +319,18 @@ def test_malformed_callback_requests_are_400_and_the_server_keeps_serving(runnin
         json.dumps({**upload, "inputs": "x", "state": 5}).encode(),  # wrong types
     ]
     for body in bodies:
-        status, _, resp = _request(srv.port, "/_dash-update-component", method="POST", body=body,
-                                   headers={"Content-Type": "application/json"})
+        status, _, resp = _request(
+            srv.port, "/_dash-update-component", method="POST", body=body, headers={"Content-Type": "application/json"}
+        )
         assert status == 400, (body, status, resp[:200])
         assert b"Traceback" not in resp
-    status, _, resp = _request(srv.port, "/_dash-update-component", method="POST", body=b"{not json",
-                               headers={"Content-Type": "application/json"})
+    status, _, resp = _request(
+        srv.port,
+        "/_dash-update-component",
+        method="POST",
+        body=b"{not json",
+        headers={"Content-Type": "application/json"},
+    )
     assert status == 400
     status, _, body = _request(srv.port, "/_dash-layout")
     assert status == 200 and b"sensor_calibration.csv" in body

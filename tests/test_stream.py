@@ -30,7 +30,17 @@ from fitting._errors import ColumnError, FitError, IntakeError
 from fitting._stream import fold_labels, holdout_mask, sweep_source
 
 RTOL = 1e-9
-FIELDS = ("train_rmse", "test_rmse", "test_rmse_se", "train_rmse_folds", "test_rmse_folds", "train_r2", "test_r2", "aic", "bic")
+FIELDS = (
+    "train_rmse",
+    "test_rmse",
+    "test_rmse_se",
+    "train_rmse_folds",
+    "test_rmse_folds",
+    "train_r2",
+    "test_r2",
+    "aic",
+    "bic",
+)
 
 
 def invented(n: int, seed: int = 7):
@@ -45,10 +55,10 @@ def write_csv(path, x, y, *, comments=True, header="temperature (°C),strain (µ
     with open(path, "w", encoding="utf-8") as fh:
         if comments:
             fh.write("# Invented strain-gauge log for tests, not a real measurement.\n")
-            fh.write("# Units: temperature in °C, strain in µm/m, \"quoted\", with commas\n")
+            fh.write('# Units: temperature in °C, strain in µm/m, "quoted", with commas\n')
             fh.write("\n")
         fh.write(header + "\n")
-        for a, b in zip(x, y):
+        for a, b in zip(x, y, strict=False):
             fh.write(f"{float(a)!r},{float(b)!r}\n")
         if extra:
             fh.write(extra)
@@ -225,7 +235,7 @@ def test_first_two_numeric_columns_and_named_columns(tmp_path):
     path = tmp_path / "three.csv"
     with open(path, "w") as fh:
         fh.write("# invented\nsite,depth (m),load (kN),temp (°C)\n")
-        for a, b in zip(x, y):
+        for a, b in zip(x, y, strict=False):
             fh.write(f"north,{float(a)!r},{float(b)!r},20.5\n")
     _, info = sweep_source(path, folds=3)
     assert (info["x"], info["y"]) == ("depth (m)", "load (kN)")
@@ -237,7 +247,7 @@ def test_first_two_numeric_columns_and_named_columns(tmp_path):
 def test_dropped_rows_are_counted_and_keep_their_index(tmp_path):
     x, y = invented(600, seed=14)
     path = tmp_path / "gaps.csv"
-    lines = [f"{float(a)!r},{float(b)!r}" for a, b in zip(x, y)]
+    lines = [f"{float(a)!r},{float(b)!r}" for a, b in zip(x, y, strict=False)]
     bad = {5: "abc,1.0", 17: ",2.0", 30: "3.0,", 44: "inf,1.0", 51: "2.0,nan", 77: "1.0,-inf", 90: "NA,4"}
     for i, text in bad.items():
         lines[i] = text
@@ -256,7 +266,7 @@ def test_dropped_rows_are_counted_and_keep_their_index(tmp_path):
 def write_parquet_parts(folder, x, y, parts=3, row_group_size=137):
     folder.mkdir(parents=True, exist_ok=True)
     cuts = np.linspace(0, x.size, parts + 1).astype(int)
-    for i, (a, b) in enumerate(zip(cuts[:-1], cuts[1:])):
+    for i, (a, b) in enumerate(zip(cuts[:-1], cuts[1:], strict=False)):
         table = pa.table({"speed (km/h)": x[a:b], "power (kW)": y[a:b], "note": ["invented"] * (b - a)})
         pq.write_table(table, folder / f"part-{i:03d}.parquet", row_group_size=row_group_size)
 

@@ -10,7 +10,14 @@ import statsmodels.api as sm
 from numpy.polynomial import Polynomial
 from sklearn.linear_model import LinearRegression
 from sklearn.metrics import mean_squared_error, r2_score
-from sklearn.model_selection import KFold, LeaveOneGroupOut, PredefinedSplit, RepeatedKFold, ShuffleSplit, validation_curve
+from sklearn.model_selection import (
+    KFold,
+    LeaveOneGroupOut,
+    PredefinedSplit,
+    RepeatedKFold,
+    ShuffleSplit,
+    validation_curve,
+)
 from sklearn.pipeline import make_pipeline
 from sklearn.preprocessing import PolynomialFeatures, StandardScaler
 
@@ -73,8 +80,15 @@ def test_matches_sklearn_validation_curve():
     degrees = [1, 2, 3, 4, 5, 6]
     cv = KFold(10, shuffle=True, random_state=0)
     pipe = make_pipeline(PolynomialFeatures(include_bias=False), StandardScaler(), LinearRegression())
-    train, test = validation_curve(pipe, x[:, None], y, param_name="polynomialfeatures__degree", param_range=degrees,
-                                   cv=cv, scoring="neg_mean_squared_error")
+    train, test = validation_curve(
+        pipe,
+        x[:, None],
+        y,
+        param_name="polynomialfeatures__degree",
+        param_range=degrees,
+        cv=cv,
+        scoring="neg_mean_squared_error",
+    )
     s = sweep_degrees(x, y, degrees=degrees, folds=10, seed=0)
     np.testing.assert_allclose(s.test_rmse_folds**2, -test, rtol=REL)
     np.testing.assert_allclose(s.train_rmse_folds**2, -train, rtol=REL)
@@ -224,7 +238,9 @@ def test_overfitting_from_on_few_points():
     tr, te, _ = _refit_errors(x, y, kept, KFold(6, shuffle=True, random_state=0).split(x))
     irec, imin, mean, se = _rule_from_refits(te)
     train = tr.mean(axis=1)
-    expected = [kept[i] for i in range(imin + 1, len(kept)) if mean[i] > mean[imin] + se[imin] and train[i] < train[imin]]
+    expected = [
+        kept[i] for i in range(imin + 1, len(kept)) if mean[i] > mean[imin] + se[imin] and train[i] < train[imin]
+    ]
     assert expected, "the constructed case must overfit"
     assert s.overfitting_from == expected[0]
     assert [int(d) for d in s.degrees[s.overfit]] == [d for d in kept if d >= expected[0]]
@@ -261,5 +277,9 @@ def test_holdout_overfitting_uses_ten_percent_rise():
     s = sweep_degrees(x, y, degrees=range(0, 12), holdout=0.3, seed=2)
     t = s.test_rmse
     imin = int(np.nanargmin(t))
-    expected = [int(s.degrees[i]) for i in range(imin + 1, len(t)) if t[i] > 1.1 * t[imin] and s.train_rmse[i] < s.train_rmse[imin]]
+    expected = [
+        int(s.degrees[i])
+        for i in range(imin + 1, len(t))
+        if t[i] > 1.1 * t[imin] and s.train_rmse[i] < s.train_rmse[imin]
+    ]
     assert s.overfitting_from == (expected[0] if expected else None)
