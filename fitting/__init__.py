@@ -27,11 +27,13 @@ from ._errors import ColumnError, DegreescopeError, FileTooLargeError, FitError,
 from ._intake import DEFAULT_MAX_BYTES, MAX_COLUMNS, DropInfo, IntakeReport, Selection, Table, read_table, read_values
 from ._polyfit import PolynomialFit, fit_polynomial
 from ._stream import fold_labels, holdout_mask, sweep_source
-from ._sweep import DegreeSweep, sweep_degrees
+from ._sweep import MAX_DEGREE, MAX_SEED, DegreeSweep, sweep_degrees
 
 __all__ = [
     "DEFAULT_MAX_BYTES",
     "MAX_COLUMNS",
+    "MAX_DEGREE",
+    "MAX_SEED",
     "ColumnError",
     "DegreeSweep",
     "DegreescopeError",
