@@ -64,11 +64,10 @@ def fmt_r2(v: Any, digits: int = 4) -> str:
         return "0"
     if f == 1.0:
         return "1"
-    for d in range(digits, 16):
-        text = f"{f:.{d}g}"
-        if float(text) != 1.0:
-            return text
-    return f"{f:.16g}"
+    gap = abs(1.0 - f)
+    if gap < 10.0 ** -(digits - 1):
+        digits = math.ceil(-math.log10(gap)) + 2  # the nines, then two digits of the gap
+    return f"{f:.{min(digits, 17)}g}"
 
 
 def fmt_count(n: int) -> str:
