@@ -278,7 +278,7 @@ def _positive_int(text: str) -> int:
     try:
         value = int(text.replace("_", ""))
     except ValueError:
-        raise argparse.ArgumentTypeError(f"expected a whole number of rows, got {text!r}")
+        raise argparse.ArgumentTypeError(f"expected a whole number of rows, got {text!r}") from None
     if value < 1:
         raise argparse.ArgumentTypeError(f"expected at least 1 row, got {value}")
     return value

@@ -60,6 +60,9 @@ def test_the_checker_itself_sees_imports(tmp_path):
     # guard against a checker that can never fail
     probe = tmp_path / "probe.py"
     probe.write_text(
-        "import plotly.graph_objects as go\nfrom dash import html\nimport importlib\nimportlib.import_module('app.cli')\n"
+        "import plotly.graph_objects as go\n"
+        "from dash import html\n"
+        "import importlib\n"
+        "importlib.import_module('app.cli')\n"
     )
     assert _imported_roots(probe) >= {"plotly", "dash", "app"}
