@@ -121,15 +121,15 @@ def _slope(fit: PolynomialFit, x) -> np.ndarray:
     return _cheb.chebval(t, d) / fit.scale
 
 
-def _turning_points(fit: PolynomialFit) -> np.ndarray:
-    """Interior x where f′ changes sign, sorted, polished with brentq."""
+def _turning_points(fit: PolynomialFit, span: tuple[float, float] | None = None) -> np.ndarray:
+    """Interior x of ``span`` (default: the calibrated range) where f′ changes sign, sorted, polished with brentq."""
     c = _t_series(fit)
     if c.size <= 2:
         return np.empty(0)
-    lo, hi = fit.domain
+    lo, hi = fit.domain if span is None else span
     cand = _cheb.chebroots(_cheb.chebder(c))
-    real = cand[np.abs(cand.imag) <= 1e-6].real
-    real = fit.offset + fit.scale * real[(real > -1) & (real < 1)]
+    real = fit.offset + fit.scale * cand[np.abs(cand.imag) <= 1e-6].real
+    real = real[(real > lo) & (real < hi)]
     grid = np.linspace(lo, hi, _SCAN_PER_COEF * c.size + 1)
     # samples just either side of each candidate, so a sign change there is seen
     pad = 1e-7 * (hi - lo)
@@ -491,24 +491,48 @@ class BackCalculation:
         return {"rows": [r.to_dict() for r in self.rows], "summary": self.summary.to_dict(), "rule": self.rule}
 
 
-def _standard_row(fit, edges, line, xi, yi, lowest, tolerance, lowest_tolerance) -> BackCalculatedStandard:
-    roots = _roots(fit, yi, edges)
+def _read_standard(fit: PolynomialFit, yi: float, outer: list[float]) -> tuple[float, str | None]:
+    """x_back of one standard: the single root inside the range, else the single root in the tolerance margin.
+
+    A standard at an end of the range whose response falls just beyond the curve reads back just
+    outside the range; it is read back there (with a note) so that it is judged by its error rather
+    than failed for lying a hair outside.
+    """
+    lo, hi = fit.domain
+    roots = _roots(fit, yi, outer)
+    inside = [r for r in roots if lo <= r <= hi]
+    if len(inside) == 1:
+        return inside[0], None
+    if not inside and len(roots) == 1:
+        return roots[
+            0
+        ], f"Read back at x = {_fmt(roots[0])}, just outside the calibrated range ({_fmt(lo)} to {_fmt(hi)})."
+    if inside:
+        return float(
+            "nan"
+        ), f"Not read back: its response matches {len(inside)} values of x inside the calibrated range."
+    return float("nan"), "Not read back: its response lies beyond the responses the curve covers near the range."
+
+
+def _standard_row(fit, outer, line, xi, yi, lowest, tolerance, lowest_tolerance) -> BackCalculatedStandard:
+    xb, note = _read_standard(fit, yi, outer)
     nan = float("nan")
-    if len(roots) != 1:
-        why = (
-            f"its response matches {len(roots)} values of x inside the calibrated range"
-            if roots
-            else "its response lies outside the responses the curve covers"
-        )
-        return BackCalculatedStandard(line, xi, yi, nan, nan, None if xi == 0 else False, f"Not read back: {why}.")
-    xb = roots[0]
+    if not math.isfinite(xb):
+        return BackCalculatedStandard(line, xi, yi, nan, nan, None if xi == 0 else False, note)
     if xi == 0:
-        return BackCalculatedStandard(
-            line, xi, yi, xb, nan, None, "Blank (x = 0): the relative error is undefined, so it is not judged."
-        )
+        blank = "Blank (x = 0): the relative error is undefined, so it is not judged."
+        return BackCalculatedStandard(line, xi, yi, xb, nan, None, blank if note is None else f"{blank} {note}")
     re = (xb - xi) / xi * 100.0
     tol = lowest_tolerance if xi == lowest else tolerance
-    return BackCalculatedStandard(line, xi, yi, xb, re, bool(abs(re) <= tol))
+    return BackCalculatedStandard(line, xi, yi, xb, re, bool(abs(re) <= tol), note)
+
+
+def _outer_edges(fit: PolynomialFit, x: np.ndarray, margin: float) -> list[float]:
+    """Monotonic pieces over the range widened by ``margin`` (a fraction) of the end standards' |x|."""
+    lo, hi = fit.domain
+    a = min(lo, float(x.min()) - margin * abs(float(x.min())))
+    b = max(hi, float(x.max()) + margin * abs(float(x.max())))
+    return [a, *_turning_points(fit, (a, b)).tolist(), b]
 
 
 def _summary(rows, lowest, min_share, min_levels, level_share) -> BackCalculationSummary:
@@ -561,12 +585,13 @@ def back_calculate(
     line_list = [None] * x.size if lines is None else [int(v) for v in np.asarray(lines).ravel()]
     if len(line_list) != x.size:
         raise FitError(f"Expected one line number per standard; got {len(line_list)} for {x.size} standards.")
-    shape = monotonic_ranges(fit)
-    edges = [shape.domain[0], *shape.turning_points, shape.domain[1]]
+    if fit.degree < 1:
+        raise FitError("A degree-0 fit is a constant: standards cannot be read back through it. Fit degree 1 or more.")
+    outer = _outer_edges(fit, x, max(float(tolerance), float(lowest_tolerance)) / 100.0)
     nonzero = x[x != 0]
     lowest = float(nonzero.min()) if nonzero.size else float("nan")
     rows = tuple(
-        _standard_row(fit, edges, ln, float(a), float(b), lowest, tolerance, lowest_tolerance)
+        _standard_row(fit, outer, ln, float(a), float(b), lowest, tolerance, lowest_tolerance)
         for ln, a, b in zip(line_list, x, y, strict=True)
     )
     summary = _summary(rows, lowest, float(min_share), int(min_levels), float(level_share))
