@@ -116,7 +116,8 @@ def _t_series(fit: PolynomialFit) -> np.ndarray:
 
 def _slope(fit: PolynomialFit, x) -> np.ndarray:
     """f′(x) from the Chebyshev series (chain rule dt/dx = 1/scale)."""
-    d = _cheb.chebder(_t_series(fit)) if _t_series(fit).size > 1 else np.zeros(1)
+    c = _t_series(fit)
+    d = _cheb.chebder(c) if c.size > 1 else np.zeros(1)
     t = (np.asarray(x, dtype=float) - fit.offset) / fit.scale
     return _cheb.chebval(t, d) / fit.scale
 
@@ -346,6 +347,9 @@ def _read_one(st: _Setting, y0: float, level: float) -> ReadBackRow:
     if len(roots) != 1:
         return _no_single_root(st, y0, roots)
     x0 = roots[0]
+    if not math.isfinite(st.tq):
+        msg = "The fit has no residual degrees of freedom, so no calibration interval or uncertainty can be given."
+        return ReadBackRow(y0, st.k, x0, None, None, float("nan"), False, (x0,), (msg,))
     notes: list[str] = []
     slope = float(_slope(st.fit, x0))
     u = float(_reading_sd(st, x0)[0]) / abs(slope) if slope != 0 else float("inf")
@@ -355,17 +359,14 @@ def _read_one(st: _Setting, y0: float, level: float) -> ReadBackRow:
             "uncertainty of the read-back value is unbounded."
         )
     ends: list[float | None] = [None, None]
-    if math.isfinite(st.tq):
-        for j, (side, name, bound) in enumerate(((-1, "lower", "below"), (1, "upper", "above"))):
-            ends[j] = _interval_end(st, y0, x0, side)
-            if ends[j] is None:
-                edge = st.edges[0] if side < 0 else st.edges[-1]
-                notes.append(
-                    f"The {name} end of the {_fmt(level * 100)} % calibration interval is not bounded inside the "
-                    f"calibrated range: it lies {bound} x = {_fmt(edge)}."
-                )
-    else:
-        notes.append("The fit has no residual degrees of freedom, so no calibration interval can be given.")
+    for j, (side, name, bound) in enumerate(((-1, "lower", "below"), (1, "upper", "above"))):
+        ends[j] = _interval_end(st, y0, x0, side)
+        if ends[j] is None:
+            edge = st.edges[0] if side < 0 else st.edges[-1]
+            notes.append(
+                f"The {name} end of the {_fmt(level * 100)} % calibration interval is not bounded inside the "
+                f"calibrated range: it lies {bound} x = {_fmt(edge)}."
+            )
     return ReadBackRow(y0, st.k, x0, ends[0], ends[1], u, False, (x0,), tuple(notes))
 
 

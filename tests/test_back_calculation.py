@@ -197,6 +197,30 @@ def test_weighted_read_back_uses_the_variance_at_x0(rule, power, k):
             assert row.u_x == pytest.approx(sp(x0) / abs(b[1] + 2 * b[2] * x0), rel=1e-6)
 
 
+def test_weighting_on_the_response_uses_the_fitted_response_at_x0():
+    """1/y²: the weight at a new x is 1/ŷ(x)² (CALIBRATION.md section 4; a new point has no observed y);
+    the interval ends are recomputed from statsmodels WLS and brentq."""
+    x, y = _assay()
+    w = weights_for("1/y2", x, y)
+    res = sm.WLS(y, np.vander(x, 3, increasing=True), weights=w).fit()
+    b, cov = res.params, res.cov_params()
+    t = stats.t.ppf(0.975, res.df_resid)
+
+    def f(v):
+        return b[0] + b[1] * v + b[2] * v * v
+
+    def sp(v):
+        g = np.array([1.0, v, v * v])
+        return math.sqrt(res.scale * f(v) ** 2 + g @ cov @ g)
+
+    row = read_back(_named_fit(x, y, 2, "1/y2"), 6.0).rows[0]
+    x0 = _brentq_back(f, 6.0, 1.0, 200.0)
+    xl = brentq(lambda v: f(v) + t * sp(v) - 6.0, 1.0, x0, xtol=1e-14)
+    xu = brentq(lambda v: f(v) - t * sp(v) - 6.0, x0, 200.0, xtol=1e-14)
+    assert abs(row.x_lower - xl) <= 1e-3 * (xu - xl) / 2 and abs(row.x_upper - xu) <= 1e-3 * (xu - xl) / 2
+    assert row.u_x == pytest.approx(sp(x0) / abs(b[1] + 2 * b[2] * x0), rel=1e-6)
+
+
 def test_a_weights_column_fit_says_its_intervals_assume_weight_one():
     """A weights column cannot give w at a new x (statsmodels issue 8781 shows the trap): weight 1, said in words."""
     x, y = _assay()

@@ -238,3 +238,42 @@ def test_to_dict_keys(pontius):
         "y", "readings", "x", "x_lower", "x_upper", "u_x", "outside_range", "roots", "warnings"
     }  # fmt: skip
     assert d["rows"][1]["x"] is None and d["rows"][1]["outside_range"] is True
+
+
+def test_through_origin_fit_reads_back_against_statsmodels():
+    """Invented through-origin quadratic: x0, ends and u(x0) against statsmodels OLS without a constant + brentq;
+    the turning point is −b1/(2 b2) of statsmodels' coefficients."""
+    x = np.linspace(1.0, 10.0, 12)
+    y = 3.0 * x - 0.2 * x**2 + 0.05 * np.sin(5 * x)
+    fit = fit_polynomial(x, y, 2, through_origin=True)
+    res = sm.OLS(y, np.column_stack([x, x * x])).fit()
+    b1, b2 = res.params
+    cov = res.cov_params()
+    assert monotonic_ranges(fit).turning_points == pytest.approx([-b1 / (2 * b2)], rel=1e-9)
+    t = stats.t.ppf(0.975, res.df_resid)
+
+    def f(v):
+        return b1 * v + b2 * v * v
+
+    def sp(v):
+        g = np.array([v, v * v])
+        return math.sqrt(res.scale + g @ cov @ g)
+
+    y0 = 5.0
+    row = read_back(fit, y0).rows[0]
+    x0 = brentq(lambda v: f(v) - y0, 1.0, -b1 / (2 * b2), xtol=1e-15)
+    xl = brentq(lambda v: f(v) + t * sp(v) - y0, 1.0, x0, xtol=1e-15)
+    xu = brentq(lambda v: f(v) - t * sp(v) - y0, x0, -b1 / (2 * b2), xtol=1e-15)
+    assert row.x == pytest.approx(x0, rel=1e-9)
+    assert abs(row.x_lower - xl) <= 1e-3 * (xu - xl) / 2 and abs(row.x_upper - xu) <= 1e-3 * (xu - xl) / 2
+    assert row.u_x == pytest.approx(sp(x0) / abs(b1 + 2 * b2 * x0), rel=1e-6)
+
+
+def test_no_residual_degrees_of_freedom_gives_no_interval():
+    """Three points, degree 2: the curve passes through them; x0 is given, the interval and u(x0) are not."""
+    fit = fit_polynomial([1.0, 2.0, 3.0], [1.0, 4.0, 8.0], 2)
+    row = read_back(fit, 3.0).rows[0]
+    c = fit.coefficients
+    assert row.x == pytest.approx(brentq(lambda v: c[0] + c[1] * v + c[2] * v * v - 3.0, 1.0, 3.0), rel=1e-12)
+    assert row.x_lower is None and row.x_upper is None and math.isnan(row.u_x)
+    assert "no residual degrees of freedom" in row.warnings[0]
