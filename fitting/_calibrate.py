@@ -14,15 +14,21 @@ How a reading is read back (inverse prediction)
   ``chebroots``), together with a uniform scan of 64·(d + 1) points, give every point where
   f′ may change sign; each sign change is polished with brentq. Between two such turning
   points f is monotonic, so it crosses y0 at most once there and a bracketed brentq finds
-  that crossing: no crossing can be missed by a too-coarse scan. Two or more roots, or none,
-  are said in words, never answered silently.
+  that crossing: no crossing of y0 depends on a scan being fine enough. (Only two turning
+  points closer together than the scan spacing, whose companion-matrix roots also came out
+  complex, could go unseen.) Two or more roots, or none, are said in words, never silently.
 * Interval: the calibration interval of the NIST/SEMATECH e-Handbook of Statistical
   Methods, section 4.5.2.1: the x whose prediction interval for a new reading (the mean of
   k readings) contains y0, i.e. |ŷ(x) − y0| ≤ t·sp(x) with
   sp(x)² = s²/(k·w(x)) + se_fit(x)², t the two-sided Student quantile on the fit's residual
   degrees of freedom. Each end is the first crossing of |ŷ(x) − y0| = t·sp(x) met when
   walking out from x0 over a grid of 2001 points (bracket, then brentq). An end that is not
-  reached inside the range is reported as unbounded (``None``) with a sentence.
+  reached inside the range is reported as unbounded (``None``) with a sentence. Where the
+  set is not one piece (a curve that turns), the piece holding x0 is given. A point where the
+  weight is undefined counts as outside the interval.
+* Back-calculated standards (``back_calculate``) are read back inside the range; a standard at
+  an end whose response falls just beyond the curve is read back in a margin beyond that end
+  (as wide as the larger tolerance) with a note, so it is judged by its error, not failed.
 * Standard uncertainty by the delta method (EURACHEM/CITAC guide "Quantifying Uncertainty in
   Analytical Measurement", appendix E.3; remembered, and checked in the tests against
   statsmodels' covariance): u(x0)² = (s²/(k·w(x0)) + se_fit(x0)²) / f′(x0)², where
