@@ -326,6 +326,8 @@ def _interval_end(st: _Setting, y0: float, x0: float, side: int) -> float | None
     inner = x0 if i == 0 else float(pts[i - 1])
     outer = float(pts[i])
     f = lambda v: float(np.clip(_gap(st, y0, v)[0], -1e300, 1e300))  # noqa: E731
+    if f(inner) > 0:  # only at x0 itself, when s = 0 (an exact fit) and rounding leaves ŷ(x0) a hair off y0
+        return inner
     a, b = (outer, inner) if side < 0 else (inner, outer)
     return brentq(f, a, b, xtol=_xtol(st.fit), rtol=4 * _EPS)
 

@@ -277,3 +277,16 @@ def test_no_residual_degrees_of_freedom_gives_no_interval():
     assert row.x == pytest.approx(brentq(lambda v: c[0] + c[1] * v + c[2] * v * v - 3.0, 1.0, 3.0), rel=1e-12)
     assert row.x_lower is None and row.x_upper is None and math.isnan(row.u_x)
     assert "no residual degrees of freedom" in row.warnings[0]
+
+
+def test_exact_polynomial_reads_back_exactly():
+    """NIST StRD Wampler1 is y = 1 + x + x² + x³ + x⁴ + x⁵ exactly (certified residual SD 0): a reading
+    computed in exact fractions at x = 7.5 reads back to 7.5, and the interval shrinks onto it."""
+    d = nist.load("Wampler1")
+    fit = fit_polynomial(d.x, d.y, d.degree)
+    x = Fraction(15, 2)
+    y0 = float(sum(x**j for j in range(6)))
+    row = read_back(fit, y0).rows[0]
+    assert row.x == pytest.approx(7.5, rel=1e-13)
+    assert row.x_lower == pytest.approx(7.5, rel=1e-9) and row.x_upper == pytest.approx(7.5, rel=1e-9)
+    assert row.warnings == ()
