@@ -335,9 +335,12 @@ class RunningServer:
         from waitress import wasyncore
 
         self.server.task_dispatcher.shutdown(timeout=timeout)
-        wasyncore.close_all(self.server._map)
-        if self._thread is not None:
+        if self._thread is not None and self._thread.is_alive():
+            # close the sockets from the loop's own thread: closing them under its select() fails there (EBADF)
+            self.server.trigger.pull_trigger(lambda: wasyncore.close_all(self.server._map))
             self._thread.join(timeout)
+        if self.server._map:
+            wasyncore.close_all(self.server._map)
 
 
 def resolve_token(host: str, token: str | None) -> str | None:
