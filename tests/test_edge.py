@@ -310,3 +310,47 @@ def test_without_the_screen_a_wrong_type_leaves_a_traceback(caplog):
     body = body.replace(b'"value": 3', b'"value": Infinity')
     client.post("/_dash-update-component", data=body, content_type="application/json")
     assert tracebacks(caplog) != []
+
+
+def test_degreescope_serve_answers_400_and_logs_no_traceback():
+    """The command users run, in its own process: its stderr (the server log) holds no traceback."""
+    import os
+    import select
+    import subprocess
+    import sys
+    import time
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parent.parent
+    env = dict(os.environ, PYTHONPATH=str(root), PYTHONUNBUFFERED="1")
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "app.cli", "serve", "--port", "0", "--threads", "2"],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        cwd=root,
+        env=env,
+    )
+    try:
+        end, line = time.monotonic() + 60, b""
+        while time.monotonic() < end and not line:
+            if select.select([proc.stdout], [], [], 0.5)[0]:
+                line = proc.stdout.readline()
+            elif proc.poll() is not None:
+                break
+        assert line.startswith(b"degreescope dashboard: http://127.0.0.1:"), line
+        port = int(line.rsplit(b":", 1)[1].strip(b"/\n"))
+        c = Client(port)
+        c.request("GET", "/")
+        status, data = post_raw(c, b"[" * 10_000 + b"]" * 10_000)
+        assert status == 400, data[:200]
+        ds, key = sample_key(c)
+        status, data = post_raw(c, degree_body(c, key, 3).replace(b'"value": 3', b'"value": Infinity'))
+        assert status == 400 and b"wrong type" in data
+        status, data = c.split(ds, **{"x-column.value": ds["x"], "y-column.value": ds["y"], "seed.value": "7"})
+        assert status == 400 and b"wrong type" in data
+        assert c.get_json("/_dash-layout")
+    finally:
+        proc.terminate()
+        _, err = proc.communicate(timeout=20)
+    assert b"Traceback" not in err, err.decode(errors="replace")[-2000:]
+    assert b"refused a callback request" in err  # the refusals are logged, as one line each
