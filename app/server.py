@@ -19,6 +19,15 @@ What the guard promises
   ``frame-ancestors 'none'`` content security policy are added to every answer.
 * **Request size**: waitress refuses request bodies above the upload limit
   (times 4/3 for base64, plus 1 MiB for the rest of the JSON).
+* **Browser sessions**: a request without a valid session cookie gets a random
+  one (``secrets.token_urlsafe``; HttpOnly, SameSite=Strict). A callback request is
+  answered with its session bound (``app.session``), so the dataset store shows
+  each browser only the datasets it uploaded, plus the shared start-up sample.
+  A top-level navigation from another site (which does not carry SameSite=Strict
+  cookies) is not given a new cookie, so it does not replace the browser's session.
+* **Callback requests** are screened before Dash reads them (``app.edge``): too deeply
+  nested bodies and values of the wrong type get 400, and dataset ids another
+  session owns are treated as unknown.
 
 No route here serves files. Dash serves its own scripts from installed
 packages (checked against the packages it registered) and ``/assets/`` from
@@ -41,6 +50,8 @@ from dataclasses import dataclass, field
 from http.cookies import CookieError, SimpleCookie
 from typing import Any, Callable, Iterable
 from urllib.parse import parse_qsl, quote, urlencode
+
+from . import edge, session
 
 __all__ = [
     "DEFAULT_UPLOAD_LIMIT_BYTES",
@@ -136,6 +147,7 @@ class _Guard:
     allowed_hosts: frozenset[str]
     token: str | None
     cookie_name: str
+    session_cookie: str = "degreescope_session"
     refused: dict[str, int] = field(default_factory=lambda: {"host": 0, "token": 0})
 
     def __call__(self, environ: dict, start_response: Callable) -> Iterable[bytes]:
@@ -162,7 +174,7 @@ class _Guard:
                     "Signed in; continue to the dashboard.\n",
                     [("Location", location or "/"), ("Set-Cookie", cookie), ("Cache-Control", "no-store")],
                 )
-            if not self._matches(self._cookie(environ)):
+            if not self._matches(self._cookie(environ, self.cookie_name)):
                 self.refused["token"] += 1
                 return _plain(
                     start_response,
@@ -170,11 +182,23 @@ class _Guard:
                     "Open the address with ?token=... that the server printed when it started.\n",
                 )
 
+        sid = self._cookie(environ, self.session_cookie)
+        new_cookie = None
+        if not session.is_session_id(sid):
+            sid = session.new_session_id()
+            if environ.get("HTTP_SEC_FETCH_SITE", "").lower() != "cross-site":
+                new_cookie = f"{self.session_cookie}={sid}; Path=/; HttpOnly; SameSite=Strict"
+
         def start_with_headers(status, headers, exc_info=None):
             present = {k.lower() for k, _ in headers}
             headers = list(headers) + [(k, v) for k, v in _SECURITY_HEADERS if k.lower() not in present]
+            if new_cookie:
+                headers.append(("Set-Cookie", new_cookie))
             return start_response(status, headers, exc_info) if exc_info else start_response(status, headers)
 
+        if environ.get("REQUEST_METHOD") == "POST" and path.endswith(edge.CALLBACK_ROUTE):
+            with session.bound(sid):
+                return self.app(environ, start_with_headers)
         return self.app(environ, start_with_headers)
 
     def _matches(self, candidate: str | None) -> bool:
@@ -182,7 +206,8 @@ class _Guard:
             return False
         return hmac.compare_digest(candidate.encode("utf-8", "surrogateescape"), self.token.encode("utf-8"))
 
-    def _cookie(self, environ: dict) -> str | None:
+    @staticmethod
+    def _cookie(environ: dict, name: str) -> str | None:
         raw = environ.get("HTTP_COOKIE")
         if not raw:
             return None
@@ -191,7 +216,7 @@ class _Guard:
             jar.load(raw)
         except CookieError:
             return None
-        morsel = jar.get(self.cookie_name)
+        morsel = jar.get(name)
         return morsel.value if morsel is not None else None
 
 
@@ -226,11 +251,14 @@ def build_wsgi(
     if inner is not dash_app and hasattr(inner, "register_error_handler"):
         _answer_unknown_scripts_with_404(inner)
         _answer_malformed_callbacks_with_400(inner)
+        store = getattr(getattr(dash_app, "degreescope_service", None), "store", None)
+        edge.install(inner, store)
     return _Guard(
         app=inner,
         allowed_hosts=allowed_host_headers(host, port, allowed_hosts),
         token=token,
         cookie_name=f"degreescope_token_{port}",
+        session_cookie=session.cookie_name(port),
     )
 
 
@@ -249,8 +277,9 @@ _MALFORMED = (KeyError, IndexError, TypeError, AttributeError, ValueError)
 
 def _answer_malformed_callbacks_with_400(flask_app: Any) -> None:
     """A callback request whose outputs, inputs or state do not match a registered callback makes Dash
-    raise one of ``_MALFORMED`` or a CallbackException while it unpacks the request (a 500). The callbacks themselves turn every
-    exception into a message in their panel, so on the callback route these come from the request: 400.
+    raise one of ``_MALFORMED`` or a CallbackException while it unpacks the request (a 500). The callbacks
+    themselves turn every exception into a message in their panel, so on the callback route these come from
+    the request: 400.
     Elsewhere they stay 500s, logged with their traceback."""
     from dash.exceptions import CallbackException, InvalidCallbackReturnValue, PreventUpdate
     from flask import request
@@ -306,9 +335,12 @@ class RunningServer:
         from waitress import wasyncore
 
         self.server.task_dispatcher.shutdown(timeout=timeout)
-        wasyncore.close_all(self.server._map)
-        if self._thread is not None:
+        if self._thread is not None and self._thread.is_alive():
+            # close the sockets from the loop's own thread: closing them under its select() fails there (EBADF)
+            self.server.trigger.pull_trigger(lambda: wasyncore.close_all(self.server._map))
             self._thread.join(timeout)
+        if self.server._map:
+            wasyncore.close_all(self.server._map)
 
 
 def resolve_token(host: str, token: str | None) -> str | None:

@@ -5,11 +5,17 @@
   dataset does not fit, the least recently used ones are evicted.
 * A request for an evicted (or unknown) id raises :class:`DatasetGone`, whose message
   asks the user to upload the file again.
+* Each dataset records the browser session that stored it (``app.session.current()``
+  at ``put``). While a request of another session is being answered, ``get`` and ``in``
+  treat it as unknown: the same :class:`DatasetGone` as an evicted dataset. A dataset
+  stored outside a request (the start-up sample) has no owner and is shared; outside a
+  request (tests, the command line) no owner check applies.
 * All methods take one lock: the WSGI server answers requests from several threads.
 """
 
 from __future__ import annotations
 
+import hmac
 import secrets
 import threading
 from collections import OrderedDict
@@ -18,9 +24,16 @@ from typing import Any
 
 from fitting import DegreescopeError
 
+from . import session
+
 __all__ = ["DatasetGone", "DatasetStore", "StoredDataset"]
 
 DEFAULT_CACHE_BYTES = 1024**3
+_FROM_REQUEST = object()
+GONE_MESSAGE = (
+    "This dataset is no longer held on the server (memory was needed for newer data, or the "
+    "server restarted); please upload the file again."
+)
 
 
 class DatasetGone(DegreescopeError):
@@ -45,12 +58,17 @@ class DatasetStore:
             raise ValueError("max_bytes must be positive")
         self.max_bytes = int(max_bytes)
         self._items: OrderedDict[str, StoredDataset] = OrderedDict()
+        self._owners: dict[str, str | None] = {}
         self._bytes = 0
         self._lock = threading.Lock()
         self.evictions = 0
 
-    def put(self, dataset: StoredDataset) -> str:
-        """Store ``dataset`` and return its new id, evicting the least recently used as needed."""
+    def put(self, dataset: StoredDataset, *, owner: str | None | object = _FROM_REQUEST) -> str:
+        """Store ``dataset`` and return its new id, evicting the least recently used as needed.
+
+        ``owner`` defaults to the session of the request being answered (None outside one: shared).
+        """
+        owner = session.current() if owner is _FROM_REQUEST else owner
         size = max(int(dataset.nbytes), 1)
         if size > self.max_bytes:
             raise DegreescopeError(
@@ -60,28 +78,40 @@ class DatasetStore:
         key = secrets.token_urlsafe(16)
         with self._lock:
             while self._items and self._bytes + size > self.max_bytes:
-                _, old = self._items.popitem(last=False)
+                old_key, old = self._items.popitem(last=False)
+                self._owners.pop(old_key, None)
                 self._bytes -= max(int(old.nbytes), 1)
                 self.evictions += 1
             self._items[key] = dataset
+            self._owners[key] = owner
             self._bytes += size
         return key
 
     def get(self, key: str | None) -> StoredDataset:
         """The dataset for ``key``, marked as recently used; raise DatasetGone if it is not held."""
         with self._lock:
-            item = self._items.get(key) if isinstance(key, str) else None
-            if item is None:
-                raise DatasetGone(
-                    "This dataset is no longer held on the server (memory was needed for newer data, or the "
-                    "server restarted); please upload the file again."
-                )
+            if not self._visible(key):
+                raise DatasetGone(GONE_MESSAGE)
             self._items.move_to_end(key)
-            return item
+            return self._items[key]
 
     def __contains__(self, key: object) -> bool:
+        """Held, and visible to the session being answered (if any)."""
         with self._lock:
-            return key in self._items
+            return self._visible(key)
+
+    def owner(self, key: str) -> str | None:
+        """The session that stored ``key`` (None: shared, or not held)."""
+        with self._lock:
+            return self._owners.get(key)
+
+    def _visible(self, key: object) -> bool:
+        if not isinstance(key, str) or key not in self._items:
+            return False
+        owner, asking = self._owners.get(key), session.current()
+        if owner is None or asking is None:
+            return True
+        return hmac.compare_digest(owner.encode(), asking.encode())
 
     def __len__(self) -> int:
         with self._lock:

@@ -1,6 +1,7 @@
 """Concurrent sessions against the real dashboard, over HTTP, on 127.0.0.1.
 
-Each simulated session is a thread with its own keep-alive connection. It
+Each simulated session is a thread with its own keep-alive connection and its
+own cookie jar (the server ties uploaded datasets to the browser session cookie). It
 loads the page (``/``, ``/_dash-layout``, ``/_dash-dependencies``), uploads its
 own invented dataset through the upload callback, asks for the split and the
 charts, then changes the degree several times (the slider's callback and the
@@ -26,6 +27,7 @@ from __future__ import annotations
 
 import argparse
 import base64
+import contextlib
 import http.client
 import json
 import math
@@ -171,6 +173,7 @@ class Session:
     def __init__(self, k: int, port: int, proto: Protocol, result: Result, deadline: float):
         self.k, self.port, self.proto, self.result, self.deadline = k, port, proto, result, deadline
         self.conn = http.client.HTTPConnection("127.0.0.1", port, timeout=60)
+        self.cookies: dict[str, str] = {}
 
     def request(self, kind: str, method: str, path: str, body: bytes | None = None):
         if time.monotonic() > self.deadline:
@@ -178,11 +181,14 @@ class Session:
         headers = {"Host": f"127.0.0.1:{self.port}"}
         if body is not None:
             headers["Content-Type"] = "application/json"
+        if self.cookies:
+            headers["Cookie"] = "; ".join(f"{k}={v}" for k, v in self.cookies.items())
         t0 = time.perf_counter()
         try:
             self.conn.request(method, path, body=body, headers=headers)
             resp = self.conn.getresponse()
             data = resp.read()
+            self._keep_cookies(resp)
         except (http.client.HTTPException, OSError):
             self.conn.close()
             self.conn = http.client.HTTPConnection("127.0.0.1", self.port, timeout=60)
@@ -191,6 +197,14 @@ class Session:
         if resp.status >= 400:
             raise RuntimeError(f"{kind}: HTTP {resp.status}: {data[:200]!r}")
         return json.loads(data) if data and resp.getheader("Content-Type", "").startswith("application/json") else data
+
+    def _keep_cookies(self, resp) -> None:
+        from http.cookies import SimpleCookie
+
+        for raw in resp.headers.get_all("Set-Cookie") or []:
+            jar = SimpleCookie()
+            jar.load(raw)
+            self.cookies.update({k: m.value for k, m in jar.items()})
 
     def callback(self, kind, dep, inputs, state, changed):
         return self.request(kind, "POST", "/_dash-update-component", Protocol.body(dep, inputs, state, changed))
@@ -360,10 +374,8 @@ def run_load(
 
         def one(k):
             s = Session(k, server.port, proto, result, deadline)
-            try:
+            with contextlib.suppress(threading.BrokenBarrierError):
                 barrier.wait(timeout=30)
-            except threading.BrokenBarrierError:
-                pass
             s.run(list(degrees))
 
         workers = [threading.Thread(target=one, args=(k,), daemon=True) for k in range(sessions)]
@@ -412,12 +424,13 @@ def main(argv=None) -> int:
         print(json.dumps(out, indent=2))
     else:
         print(
-            f"server: {out['server']}; sessions {out['sessions']}, server threads {out['server_threads']}, requests {out['requests']} "
-            f"in {out['wall_seconds']:.1f} s ({out['requests_per_second']:.0f} per second)"
+            f"server: {out['server']}; sessions {out['sessions']}, server threads {out['server_threads']}, "
+            f"requests {out['requests']} in {out['wall_seconds']:.1f} s ({out['requests_per_second']:.0f} per second)"
         )
         print(f"HTTP status counts: {out['status']}; 5xx: {out['server_errors_5xx']}")
         print(
-            f"errors: {len(out['errors'])}; cross-talk: {len(out['crosstalk'])}; unfinished: {out['unfinished_sessions']}"
+            f"errors: {len(out['errors'])}; cross-talk: {len(out['crosstalk'])}; "
+            f"unfinished: {out['unfinished_sessions']}"
         )
         print(
             f"latency all requests: p50 {out['p50_ms']:.1f} ms, p95 {out['p95_ms']:.1f} ms, max {out['max_ms']:.1f} ms"

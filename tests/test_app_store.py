@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import contextlib
 import threading
 
 import pytest
@@ -52,10 +53,8 @@ def test_concurrent_puts_keep_the_byte_total_right():
     def work():
         for _ in range(200):
             k = store.put(ds(7))
-            try:
+            with contextlib.suppress(DatasetGone):
                 store.get(k)
-            except DatasetGone:
-                pass
 
     threads = [threading.Thread(target=work) for _ in range(8)]
     for t in threads:
@@ -64,3 +63,67 @@ def test_concurrent_puts_keep_the_byte_total_right():
         t.join()
     assert store.total_bytes == 7 * len(store)
     assert store.total_bytes <= 10_000
+
+
+# -- owners (app.session) ---------------------------------------------------------------------
+
+A_SESSION = "a" * 43
+B_SESSION = "b" * 43
+
+
+def test_a_dataset_is_hidden_from_other_sessions_as_if_evicted():
+    from app import session
+
+    store = DatasetStore(1000)
+    with session.bound(A_SESSION):
+        mine = store.put(ds(10))
+        assert store.get(mine).name == "d10" and mine in store
+    assert store.owner(mine) == A_SESSION
+    with session.bound(B_SESSION):
+        assert mine not in store
+        with pytest.raises(DatasetGone) as refused:
+            store.get(mine)
+    with pytest.raises(DatasetGone) as evicted:
+        store.get("never-stored")
+    assert str(refused.value) == str(evicted.value)  # the same "upload again" message
+    assert store.get(mine).name == "d10"  # outside a request (tests, command line): no owner check
+
+
+def test_datasets_stored_outside_a_request_are_shared():
+    from app import session
+
+    store = DatasetStore(1000)
+    sample = store.put(ds(5))
+    assert store.owner(sample) is None
+    for sid in (A_SESSION, B_SESSION):
+        with session.bound(sid):
+            assert store.get(sample).name == "d5"
+    explicit = store.put(ds(6), owner=B_SESSION)
+    with session.bound(A_SESSION):
+        assert explicit not in store
+
+
+def test_eviction_forgets_the_owner():
+    from app import session
+
+    store = DatasetStore(100)
+    with session.bound(A_SESSION):
+        old = store.put(ds(60))
+        store.put(ds(60))
+    assert old not in store and store.owner(old) is None
+    assert len(store._owners) == len(store) == 1
+
+
+def test_session_ids_are_checked():
+    from app import session
+
+    assert session.current() is None
+    assert session.is_session_id(session.new_session_id())
+    assert session.new_session_id() != session.new_session_id()
+    for bad in ("", "short", "a" * 31, "a" * 40 + ";x=1", None, 42, "a" * 129):
+        assert not session.is_session_id(bad)
+        with pytest.raises(ValueError), session.bound(bad):
+            pass
+    with session.bound(A_SESSION):
+        assert session.current() == A_SESSION
+    assert session.current() is None

@@ -334,3 +334,21 @@ def test_malformed_callback_requests_are_400_and_the_server_keeps_serving(runnin
     assert status == 400
     status, _, body = _request(srv.port, "/_dash-layout")
     assert status == 200 and b"sensor_calibration.csv" in body
+
+
+def test_session_cookie_beside_the_token_and_not_on_refusals(running):
+    srv = running(_tiny_wsgi, token="s3cret-token-value")
+    session_name = f"degreescope_session_{srv.port}"
+    for host, headers in ((f"127.0.0.1:{srv.port}", {}), ("evil.example", {})):
+        status, hdrs, _ = _request(srv.port, "/", host=host, headers=headers)
+        assert status in (403, 421)
+        assert session_name not in hdrs.get("Set-Cookie", "")
+    status, hdrs, body = _request(srv.port, "/", headers={"Cookie": f"degreescope_token_{srv.port}=s3cret-token-value"})
+    assert status == 200 and body == b"hello from the inner app"
+    assert hdrs["Set-Cookie"].startswith(session_name + "=")
+    assert "HttpOnly" in hdrs["Set-Cookie"] and "SameSite=Strict" in hdrs["Set-Cookie"]
+    sid = hdrs["Set-Cookie"].split(";")[0].split("=", 1)[1]
+    status, hdrs, _ = _request(
+        srv.port, "/", headers={"Cookie": f"degreescope_token_{srv.port}=s3cret-token-value; {session_name}={sid}"}
+    )
+    assert status == 200 and "Set-Cookie" not in hdrs  # kept, not replaced
