@@ -88,6 +88,61 @@ def settings_rows(view: SplitView, degree: int) -> list[list[str]]:
     ]
 
 
+_STYLE = """\
+body { font-family: "Source Sans 3", "Segoe UI", "Noto Sans", Arial, sans-serif; color: #1c2a35;
+       background: #f5f2ea; margin: 0; padding: 24px 40px; max-width: 1150px; }
+h1 { font-size: 24px; margin: 0 0 4px; }
+h2 { font-size: 18px; border-bottom: 2px solid #d9730d; padding-bottom: 3px; }
+table { border-collapse: collapse; margin: 8px 0 16px; background: #fff; }
+td, th { border: 1px solid #d9d4c7; padding: 4px 10px; text-align: left; font-variant-numeric: tabular-nums; }
+th { background: #ece7da; } .warn { background: #fff1e0; border-left: 5px solid #b8002e; padding: 6px 14px; }
+.caution { background: #eef3f7; border-left: 5px solid #2a5d8f; padding: 8px 14px; }
+code { background: #fff; padding: 2px 6px; border: 1px solid #d9d4c7; }
+"""
+
+
+def _coefficient_rows(model: ModelView) -> list[list[str]]:
+    return [
+        [
+            term_name(r["power"]),
+            _fmt(r["coefficient"], 10),
+            _fmt(r["se"], 4),
+            _fmt(r["ci_lo"], 8),
+            _fmt(r["ci_hi"], 8),
+            r["unit"],
+        ]
+        for r in model.coefficient_rows
+    ]
+
+
+def _statistic_rows(view: SplitView, model: ModelView) -> list[list[str]]:
+    fit = model.fit
+    rows = [
+        ["R² (fit)", fmt_r2(fit.r_squared, 8)],
+        ["adjusted R² (fit)", fmt_r2(fit.adjusted_r_squared, 8)],
+        ["weighted RMSE (fit rows)" if fit.weighted else "RMSE (fit rows)", _fmt(fit.rmse, 6)],
+    ]
+    plain = getattr(fit, "plain_rmse", None)
+    if fit.weighted and plain is not None:
+        rows.append(["RMSE, unweighted (fit rows)", _fmt(plain, 6)])
+    return rows + [
+        ["residual SD, weighted" if fit.weighted else "residual SD", _fmt(fit.residual_sd, 6)],
+        ["test RMSE (" + view.split_label + ")", fmt_pm(model.test_rmse, model.test_rmse_se, 6)],
+        ["test R²", fmt_r2(model.test_r2, 8)],
+        ["rows in the fit", f"{fit.n:,}"],
+        ["degrees of freedom", str(fit.dof)],
+        ["condition number (mapped x)", _fmt(fit.condition_number, 3)],
+        ["x range of the fit", f"{_fmt(fit.domain[0])} to {_fmt(fit.domain[1])}"],
+    ]
+
+
+def _warnings_html(warnings: list[str]) -> str:
+    if not warnings:
+        return "<p>No warning stands at this degree.</p>"
+    items = "".join(f"<li>{html.escape(w)}</li>" for w in warnings)
+    return f"<div class='warn'><strong>Warnings at this degree</strong><ul>{items}</ul></div>"
+
+
 def html_report(
     info: DatasetInfo,
     view: SplitView,
@@ -101,56 +156,16 @@ def html_report(
     fit = model.fit
     fit_html = fit_fig.to_html(full_html=False, include_plotlyjs=True, config={"displaylogo": False})
     err_html = err_fig.to_html(full_html=False, include_plotlyjs=False, config={"displaylogo": False})
-    coef_rows = [
-        [
-            term_name(r["power"]),
-            _fmt(r["coefficient"], 10),
-            _fmt(r["se"], 4),
-            _fmt(r["ci_lo"], 8),
-            _fmt(r["ci_hi"], 8),
-            r["unit"],
-        ]
-        for r in model.coefficient_rows
-    ]
-    stats_rows = [
-        ["R² (fit)", fmt_r2(fit.r_squared, 8)],
-        ["adjusted R² (fit)", fmt_r2(fit.adjusted_r_squared, 8)],
-        ["RMSE (fit rows)", _fmt(fit.rmse, 6)],
-        ["residual SD", _fmt(fit.residual_sd, 6)],
-        [
-            "test RMSE (" + view.split_label + ")",
-            fmt_pm(model.test_rmse, model.test_rmse_se, 6),
-        ],
-        ["test R²", fmt_r2(model.test_r2, 8)],
-        ["rows in the fit", f"{fit.n:,}"],
-        ["degrees of freedom", str(fit.dof)],
-        ["condition number (mapped x)", _fmt(fit.condition_number, 3)],
-        ["x range of the fit", f"{_fmt(fit.domain[0])} to {_fmt(fit.domain[1])}"],
-    ]
-    warnings = list(dv.warnings) + list(fit.warnings)
-    warn_html = (
-        "<div class='warn'><strong>Warnings at this degree</strong><ul>"
-        + "".join(f"<li>{e(w)}</li>" for w in warnings)
-        + "</ul></div>"
-        if warnings
-        else "<p>No warning stands at this degree.</p>"
-    )
+    coef_rows = _coefficient_rows(model)
+    stats_rows = _statistic_rows(view, model)
+    warn_html = _warnings_html(list(dv.warnings) + list(fit.warnings))
     when = datetime.now(timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
     steady = view.steady
     return f"""<!DOCTYPE html>
 <html lang="en"><head><meta charset="utf-8">
 <title>degreescope report: {e(view.columns.y)} against {e(view.columns.x)}</title>
 <style>
-body {{ font-family: "Source Sans 3", "Segoe UI", "Noto Sans", Arial, sans-serif; color: #1c2a35;
-       background: #f5f2ea; margin: 0; padding: 24px 40px; max-width: 1150px; }}
-h1 {{ font-size: 24px; margin: 0 0 4px; }}
-h2 {{ font-size: 18px; border-bottom: 2px solid #d9730d; padding-bottom: 3px; }}
-table {{ border-collapse: collapse; margin: 8px 0 16px; background: #fff; }}
-td, th {{ border: 1px solid #d9d4c7; padding: 4px 10px; text-align: left; font-variant-numeric: tabular-nums; }}
-th {{ background: #ece7da; }} .warn {{ background: #fff1e0; border-left: 5px solid #b8002e; padding: 6px 14px; }}
-.caution {{ background: #eef3f7; border-left: 5px solid #2a5d8f; padding: 8px 14px; }}
-code {{ background: #fff; padding: 2px 6px; border: 1px solid #d9d4c7; }}
-</style></head><body>
+{_STYLE}</style></head><body>
 <h1>degreescope report</h1>
 <p>Dataset <strong>{e(info.name)}</strong>, made {e(when)}.</p>
 <p class="caution">{e(CAUTION_TEXT)}</p>
