@@ -16,6 +16,7 @@ never pass through it, so a negative value stays a negative value.
 
 from __future__ import annotations
 
+import contextlib
 import csv
 import io
 import os
@@ -56,10 +57,8 @@ def write_bytes_atomic(path: str | os.PathLike[str], data: bytes) -> Path:
         os.chmod(tmp, 0o666 & ~umask)
         os.replace(tmp, dest)
     except BaseException:
-        try:
+        with contextlib.suppress(FileNotFoundError):
             os.unlink(tmp)
-        except FileNotFoundError:
-            pass
         raise
     return dest
 

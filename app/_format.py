@@ -73,3 +73,50 @@ def fmt_r2(v: Any, digits: int = 4) -> str:
 def fmt_count(n: int) -> str:
     """Thousands separated: 1234567 -> "1,234,567"."""
     return f"{int(n):,}"
+
+
+def zero_scale(values: Any, rel: float = 1e-12) -> float:
+    """A magnitude below which a figure in the units of ``values`` is rounding noise: ``rel`` × max |value|.
+
+    Used with ``fmt_number(..., zero_below=...)`` so an RMSE of 3.1e-38 on exact data reads "0".
+
+    >>> zero_scale([1.0, -250.0, 3.0])
+    2.5e-10
+    """
+    biggest = 0.0
+    for v in values:
+        f = _finite(v)
+        if f is not None and abs(f) > biggest:
+            biggest = abs(f)
+    return rel * biggest
+
+
+def term_name(power: int, x: str = "x") -> str:
+    """The name of the term of a power: "constant", "x", "x^2", ...
+
+    >>> [term_name(k) for k in range(4)]
+    ['constant', 'x', 'x^2', 'x^3']
+    """
+    k = int(power)
+    if k == 0:
+        return "constant"
+    return x if k == 1 else f"{x}^{k}"
+
+
+_UNIT_FORMS = ("({u})", "[{u}]", "/ {u}", "/{u}", "in {u}")
+
+
+def label_with_unit(name: str | None, unit: str | None) -> str:
+    """A column label with its unit once: "Output (V)" from ("Output", "V"), and "Output [V]" stays as it is.
+
+    >>> label_with_unit("Output [V]", "V"), label_with_unit("Output", "V"), label_with_unit("t (°C)", "°C")
+    ('Output [V]', 'Output (V)', 't (°C)')
+    >>> label_with_unit(None, None)
+    '?'
+    """
+    text = str(name) if name else "?"
+    if not unit:
+        return text
+    if any(form.format(u=unit) in text for form in _UNIT_FORMS):
+        return text
+    return f"{text} ({unit})"

@@ -1,29 +1,25 @@
 """What a user takes away: a self-contained HTML report, the model JSON, a predictions CSV.
 
-* CSV cells that a spreadsheet could read as a formula (they begin with ``=``, ``+``,
+* The model JSON and the predictions CSV are written by ``app.handover``, the one
+  writer both front ends use (the same columns and provenance as the command line).
+  Text cells that a spreadsheet could read as a formula (they begin with ``=``, ``+``,
   ``-``, ``@``, a tab or a carriage return) are prefixed with a single quote, as the
-  OWASP guidance on CSV injection advises. Text from the uploaded file (column names)
-  is the risk; numbers are written as plain numbers and are not touched, except a
-  negative number's leading minus, which the rule covers as well (so a negative value
-  reads ``'-1.5`` in a spreadsheet; the JSON model keeps full numbers).
+  OWASP guidance on CSV injection advises; numbers are written as plain numbers and
+  are never touched, so -1.5 stays -1.5.
 * The HTML report inlines plotly's JavaScript (it opens offline) and escapes every
   piece of text that came from the file.
 """
 
 from __future__ import annotations
 
-import csv
 import html
-import io
-import json
-import math
 from datetime import datetime, timezone
-from typing import Any, Iterable
+from typing import Any
 
-import numpy as np
 import plotly.graph_objects as go
 
-from ._atomic import neutralise_cell as _neutralise_text
+from . import handover
+from ._format import fmt_number, fmt_pm, fmt_r2, term_name
 from .service import DatasetInfo, DegreeView, ModelView, PredictionView, SplitView
 
 __all__ = ["neutralise_cell", "predictions_csv", "model_json", "html_report", "CAUTION_TEXT"]
@@ -37,86 +33,40 @@ CAUTION_TEXT = (
 
 
 def neutralise_cell(value: Any) -> str:
-    """A CSV cell as text.
+    """A CSV cell as text (``app.handover.csv_cell``).
 
     Numbers are written as plain numbers: a value such as -1.5 is a number to
-    every spreadsheet, not a formula. Text goes through the shared rule in
-    ``app._atomic.neutralise_cell`` (OWASP CSV injection guidance: a leading
-    single quote when it begins with = + - @, tab or CR).
+    every spreadsheet, not a formula. Text gets a leading single quote when it
+    begins with = + - @, tab or CR (OWASP CSV injection guidance).
     """
-    if value is None:
-        return ""
-    if isinstance(value, (bool, np.bool_)):
-        return "yes" if value else "no"
-    if isinstance(value, (int, np.integer)):
-        return str(int(value))
-    if isinstance(value, (float, np.floating)):
-        return repr(float(value)) if math.isfinite(float(value)) else ""
-    return _neutralise_text(str(value))
+    return handover.csv_cell(value)
 
 
-def _write_csv(rows: Iterable[Iterable[Any]]) -> str:
-    buf = io.StringIO()
-    w = csv.writer(buf, lineterminator="\n")
-    for row in rows:
-        w.writerow([neutralise_cell(v) for v in row])
-    return buf.getvalue()
+def predictions_csv(pred: PredictionView, *, x_name: str, y_name: str, y_observed=None, level: float = 0.95) -> str:
+    """Predictions with confidence and prediction intervals at ``level``, one row per x (``app.handover``)."""
+    return handover.predictions_csv(
+        pred.x,
+        pred.y,
+        (pred.conf_lo, pred.conf_hi),
+        (pred.pred_lo, pred.pred_hi),
+        pred.outside,
+        x_name=x_name,
+        y_name=y_name,
+        level=level,
+        y_observed=y_observed,
+    )
 
 
-def predictions_csv(pred: PredictionView, *, x_name: str, y_name: str, y_observed=None) -> str:
-    """Predictions with 95 % confidence and prediction intervals, one row per x."""
-    header = [x_name]
-    if y_observed is not None:
-        header += [f"{y_name} (observed)"]
-    header += [
-        f"{y_name} (fitted)",
-        "confidence 95% lower",
-        "confidence 95% upper",
-        "prediction 95% lower",
-        "prediction 95% upper",
-        "outside data range",
-    ]
+def model_json(fit, fitted_from: dict | None = None) -> str:
+    """The model file (``app.handover.model_json``): ``to_dict()`` plus provenance, strict JSON.
 
-    def rows():
-        yield header
-        for i in range(pred.x.size):
-            row = [float(pred.x[i])]
-            if y_observed is not None:
-                row.append(float(y_observed[i]))
-            row += [
-                float(pred.y[i]),
-                float(pred.conf_lo[i]),
-                float(pred.conf_hi[i]),
-                float(pred.pred_lo[i]),
-                float(pred.pred_hi[i]),
-                bool(pred.outside[i]),
-            ]
-            yield row
-
-    return _write_csv(rows())
-
-
-def _json_safe(obj):
-    if isinstance(obj, float):
-        return obj if math.isfinite(obj) else None
-    if isinstance(obj, dict):
-        return {k: _json_safe(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [_json_safe(v) for v in obj]
-    return obj
-
-
-def model_json(fit) -> str:
-    """``PolynomialFit.to_dict()`` as strict JSON (non-finite numbers become null)."""
-    return json.dumps(_json_safe(fit.to_dict()), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+    ``fitted_from`` is ``app.handover.provenance(...)``; without it the file records the version only.
+    """
+    return handover.model_json(fit, fitted_from)
 
 
 def _fmt(v, digits=6) -> str:
-    try:
-        v = float(v)
-    except (TypeError, ValueError):
-        return "—"
-    return f"{v:.{digits}g}" if math.isfinite(v) else "—"
+    return fmt_number(v, digits)
 
 
 def _table(head: list[str], rows: list[list[str]]) -> str:
@@ -138,6 +88,61 @@ def settings_rows(view: SplitView, degree: int) -> list[list[str]]:
     ]
 
 
+_STYLE = """\
+body { font-family: "Source Sans 3", "Segoe UI", "Noto Sans", Arial, sans-serif; color: #1c2a35;
+       background: #f5f2ea; margin: 0; padding: 24px 40px; max-width: 1150px; }
+h1 { font-size: 24px; margin: 0 0 4px; }
+h2 { font-size: 18px; border-bottom: 2px solid #d9730d; padding-bottom: 3px; }
+table { border-collapse: collapse; margin: 8px 0 16px; background: #fff; }
+td, th { border: 1px solid #d9d4c7; padding: 4px 10px; text-align: left; font-variant-numeric: tabular-nums; }
+th { background: #ece7da; } .warn { background: #fff1e0; border-left: 5px solid #b8002e; padding: 6px 14px; }
+.caution { background: #eef3f7; border-left: 5px solid #2a5d8f; padding: 8px 14px; }
+code { background: #fff; padding: 2px 6px; border: 1px solid #d9d4c7; }
+"""
+
+
+def _coefficient_rows(model: ModelView) -> list[list[str]]:
+    return [
+        [
+            term_name(r["power"]),
+            _fmt(r["coefficient"], 10),
+            _fmt(r["se"], 4),
+            _fmt(r["ci_lo"], 8),
+            _fmt(r["ci_hi"], 8),
+            r["unit"],
+        ]
+        for r in model.coefficient_rows
+    ]
+
+
+def _statistic_rows(view: SplitView, model: ModelView) -> list[list[str]]:
+    fit = model.fit
+    rows = [
+        ["R² (fit)", fmt_r2(fit.r_squared, 8)],
+        ["adjusted R² (fit)", fmt_r2(fit.adjusted_r_squared, 8)],
+        ["weighted RMSE (fit rows)" if fit.weighted else "RMSE (fit rows)", _fmt(fit.rmse, 6)],
+    ]
+    plain = getattr(fit, "plain_rmse", None)
+    if fit.weighted and plain is not None:
+        rows.append(["RMSE, unweighted (fit rows)", _fmt(plain, 6)])
+    return rows + [
+        ["residual SD, weighted" if fit.weighted else "residual SD", _fmt(fit.residual_sd, 6)],
+        ["test RMSE (" + view.split_label + ")", fmt_pm(model.test_rmse, model.test_rmse_se, 6)],
+        ["test R²", fmt_r2(model.test_r2, 8)],
+        ["rows in the fit", f"{fit.n:,}"],
+        ["degrees of freedom", str(fit.dof)],
+        ["condition number (mapped x)", _fmt(fit.condition_number, 3)],
+        ["x range of the fit", f"{_fmt(fit.domain[0])} to {_fmt(fit.domain[1])}"],
+    ]
+
+
+def _warnings_html(warnings: list[str]) -> str:
+    if not warnings:
+        return "<p>No warning stands at this degree.</p>"
+    items = "".join(f"<li>{html.escape(w)}</li>" for w in warnings)
+    return f"<div class='warn'><strong>Warnings at this degree</strong><ul>{items}</ul></div>"
+
+
 def html_report(
     info: DatasetInfo,
     view: SplitView,
@@ -151,49 +156,16 @@ def html_report(
     fit = model.fit
     fit_html = fit_fig.to_html(full_html=False, include_plotlyjs=True, config={"displaylogo": False})
     err_html = err_fig.to_html(full_html=False, include_plotlyjs=False, config={"displaylogo": False})
-    coef_rows = [
-        [r["term"], _fmt(r["coefficient"], 10), _fmt(r["se"], 4), _fmt(r["ci_lo"], 8), _fmt(r["ci_hi"], 8), r["unit"]]
-        for r in model.coefficient_rows
-    ]
-    stats_rows = [
-        ["R² (fit)", _fmt(fit.r_squared, 8)],
-        ["adjusted R² (fit)", _fmt(fit.adjusted_r_squared, 8)],
-        ["RMSE (fit rows)", _fmt(fit.rmse, 6)],
-        ["residual SD", _fmt(fit.residual_sd, 6)],
-        [
-            "test RMSE (" + view.split_label + ")",
-            _fmt(model.test_rmse, 6)
-            + (f" ± {_fmt(model.test_rmse_se, 3)}" if math.isfinite(model.test_rmse_se) else ""),
-        ],
-        ["test R²", _fmt(model.test_r2, 8)],
-        ["rows in the fit", f"{fit.n:,}"],
-        ["degrees of freedom", str(fit.dof)],
-        ["condition number (mapped x)", _fmt(fit.condition_number, 3)],
-        ["x range of the fit", f"{_fmt(fit.domain[0])} to {_fmt(fit.domain[1])}"],
-    ]
-    warnings = list(dv.warnings) + list(fit.warnings)
-    warn_html = (
-        "<div class='warn'><strong>Warnings at this degree</strong><ul>"
-        + "".join(f"<li>{e(w)}</li>" for w in warnings)
-        + "</ul></div>"
-        if warnings
-        else "<p>No warning stands at this degree.</p>"
-    )
+    coef_rows = _coefficient_rows(model)
+    stats_rows = _statistic_rows(view, model)
+    warn_html = _warnings_html(list(dv.warnings) + list(fit.warnings))
     when = datetime.now(timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
     steady = view.steady
     return f"""<!DOCTYPE html>
 <html lang="en"><head><meta charset="utf-8">
 <title>degreescope report: {e(view.columns.y)} against {e(view.columns.x)}</title>
 <style>
-body {{ font-family: "Source Sans 3", "Segoe UI", "Noto Sans", Arial, sans-serif; color: #1c2a35;
-       background: #f5f2ea; margin: 0; padding: 24px 40px; max-width: 1150px; }}
-h1 {{ font-size: 24px; margin: 0 0 4px; }} h2 {{ font-size: 18px; border-bottom: 2px solid #d9730d; padding-bottom: 3px; }}
-table {{ border-collapse: collapse; margin: 8px 0 16px; background: #fff; }}
-td, th {{ border: 1px solid #d9d4c7; padding: 4px 10px; text-align: left; font-variant-numeric: tabular-nums; }}
-th {{ background: #ece7da; }} .warn {{ background: #fff1e0; border-left: 5px solid #b8002e; padding: 6px 14px; }}
-.caution {{ background: #eef3f7; border-left: 5px solid #2a5d8f; padding: 8px 14px; }}
-code {{ background: #fff; padding: 2px 6px; border: 1px solid #d9d4c7; }}
-</style></head><body>
+{_STYLE}</style></head><body>
 <h1>degreescope report</h1>
 <p>Dataset <strong>{e(info.name)}</strong>, made {e(when)}.</p>
 <p class="caution">{e(CAUTION_TEXT)}</p>

@@ -86,3 +86,27 @@ def test_html_report_escapes_text_from_the_file(fit_service):
     page = exports.html_report(info, view, dv, model, figures.fit_figure(view, dv), figures.error_figure(view, dv))
     assert "<img src=x" not in page and "<script>x</script>" not in page
     assert "&lt;img src=x onerror=alert(1)&gt;" in page
+
+
+def test_html_report_names_the_constant_term_as_the_command_line_does(sensor):
+    from app.handover import term_name
+
+    service, info, cols = sensor
+    split = SplitSettings()
+    view = service.split_view(info.id, cols, split)
+    dv = service.degree_view(info.id, cols, split, 2)
+    model = service.model_view(info.id, cols, split, 2)
+    page = exports.html_report(info, view, dv, model, figures.fit_figure(view, dv), figures.error_figure(view, dv))
+    assert f"<td>{term_name(0)}</td>" in page and term_name(0) == "constant"
+    assert "<td>1</td><td>" not in page  # the old name of the constant term
+
+
+def test_model_json_takes_the_same_provenance_as_the_command_line(sensor):
+    from app import handover
+
+    service, info, cols = sensor
+    model = service.model_view(info.id, cols, KFOLD, 2)
+    prov = handover.provenance(file_name=info.name, sha256=None, x=cols.x, y=cols.y, rows_used=model.fit.n)
+    doc = json.loads(exports.model_json(model.fit, prov))
+    assert doc["fitted_from"] == prov
+    assert exports.model_json(model.fit, prov) == handover.model_json(model.fit, prov)

@@ -505,8 +505,6 @@ def test_sweep_of_a_parquet_file_goes_through_the_streaming_engine(tmp_path):
     y = 1 - x + 0.5 * x**2 + rng.normal(0, 0.1, x.size)
     pq.write_table(pa.table({"x": x, "y": y}), tmp_path / "data.parquet")
     rc, out, err = run("sweep", tmp_path / "data.parquet", "--max-degree", 5, "--json")
-    if rc == 2 and "streaming support is not available" in err:
-        pytest.skip("fitting._stream is not in this build")
     assert rc == 0, err
     d = json.loads(out)
     assert d["rows_used"] == 3000 and d["intake"]["streamed"]["format"]
@@ -605,15 +603,14 @@ def test_serve_bad_file_and_bad_port_exit_2():
 SMALL_STREAM_THRESHOLD = (
     "import sys\n"
     "import app.cli as cli\n"
-    "cli.STREAM_ABOVE_BYTES = 1000  # stands in for 64 MiB, so the test needs no huge file\n"
+    "import app.cli.sweep\n"
+    "app.cli.sweep.STREAM_ABOVE_BYTES = 1000  # stands in for 64 MiB, so the test needs no huge file\n"
     "sys.exit(cli.main(sys.argv[1:]))\n"
 )
 
 
 def test_large_csv_is_swept_in_chunks_with_the_same_answer():
     rc, out, err = run("sweep", VAN, "--max-degree", 4, "--json", code=SMALL_STREAM_THRESHOLD)
-    if rc == 2 and "streaming support is not available" in err:
-        pytest.skip("fitting._stream is not in this build")
     assert rc == 0, err
     streamed = json.loads(out)
     assert streamed["intake"]["streamed"]["rows_used"] == 200 == streamed["rows_used"]
@@ -655,8 +652,6 @@ def test_progress_line_only_on_a_terminal(tmp_path):
             break
         seen += chunk
     os.close(master)
-    if proc.returncode == 2 and b"streaming support is not available" in seen:
-        pytest.skip("fitting._stream is not in this build")
     assert proc.returncode == 0, seen
     assert json.loads(out)["rows_used"] == 5000  # stdout stays pure JSON
     assert b"read " in seen and b"rows" in seen

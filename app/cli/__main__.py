@@ -1,0 +1,7 @@
+"""``python -m app.cli``: the same as the ``degreescope`` command."""
+
+import sys
+
+from . import main
+
+sys.exit(main())

@@ -1,0 +1,124 @@
+"""Wall time of the command line on a small file, against a plain pandas + numpy script.
+
+    .venv/bin/python benchmarks/bench_cli_start.py [--repeats 7] [--file sample_data/cubic_small_noisy.csv]
+
+Each run is a fresh interpreter, as a user starts it, so the time is mostly start-up:
+importing Python, the engine and its libraries. Runs are interleaved (A, B, C, A, B, C,
+...) so machine noise hits all alike; the medians and the ratio ours / reference are
+printed. Target: 1.5x the reference.
+
+    degreescope fit FILE --degree 3   vs  pandas.read_csv + numpy.polyfit(deg=3)
+    degreescope sweep FILE            vs  pandas.read_csv + numpy.polyfit for degrees 0-12
+                                          on 10 shuffled folds (train and test RMSE)
+
+The reference does less than the command (no intake report, no standard errors, no
+extended-precision refinement, no recommendation): it is the floor a user would compare
+against. Then the modules that dominate start-up are listed from ``python -X importtime``.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import subprocess
+import sys
+from pathlib import Path
+
+from _common import ROOT, environment, interleaved_medians
+
+FIT_REFERENCE = """
+import sys
+import numpy as np
+import pandas as pd
+frame = pd.read_csv(sys.argv[1], comment="#")
+x, y = frame.iloc[:, 0].to_numpy(float), frame.iloc[:, 1].to_numpy(float)
+coef = np.polyfit(x, y, 3)
+print(coef, np.sqrt(np.mean((np.polyval(coef, x) - y) ** 2)))
+"""
+
+SWEEP_REFERENCE = """
+import sys
+import numpy as np
+import pandas as pd
+frame = pd.read_csv(sys.argv[1], comment="#")
+x, y = frame.iloc[:, 0].to_numpy(float), frame.iloc[:, 1].to_numpy(float)
+folds = np.array_split(np.random.default_rng(0).permutation(x.size), 10)
+for d in range(13):
+    train, test = [], []
+    for f in folds:
+        keep = np.ones(x.size, bool)
+        keep[f] = False
+        if keep.sum() <= d:
+            continue
+        c = np.polyfit(x[keep], y[keep], d)
+        train.append(np.sqrt(np.mean((np.polyval(c, x[keep]) - y[keep]) ** 2)))
+        test.append(np.sqrt(np.mean((np.polyval(c, x[f]) - y[f]) ** 2)))
+    print(d, np.mean(train), np.mean(test))
+"""
+
+PACKAGES = ("numpy", "pandas", "scipy.linalg", "sklearn", "pyarrow", "fitting", "app")
+
+
+def _runner(argv: list[str]):
+    env = dict(os.environ, PYTHONPATH=str(ROOT), PYTHONWARNINGS="ignore")
+
+    def run() -> None:
+        proc = subprocess.run(argv, cwd=ROOT, env=env, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+        if proc.returncode != 0:
+            raise SystemExit(f"{' '.join(argv)} failed: {proc.stderr.decode()[-500:]}")
+
+    return run
+
+
+def import_costs(argv: list[str]) -> dict[str, float]:
+    """Cumulative import time (ms) of each top-level package in ``PACKAGES``, from ``python -X importtime``."""
+    env = dict(os.environ, PYTHONPATH=str(ROOT))
+    proc = subprocess.run(
+        [sys.executable, "-X", "importtime", *argv], cwd=ROOT, env=env, capture_output=True, text=True, check=True
+    )
+    costs: dict[str, float] = {}
+    for line in proc.stderr.splitlines():
+        if not line.startswith("import time:") or "|" not in line:
+            continue
+        _, cumulative, name = (part.strip() for part in line.split(":", 1)[1].split("|"))
+        if name in PACKAGES:  # a package's first (outermost) import holds its whole cumulative cost
+            costs.setdefault(name, int(cumulative) / 1000.0)
+    return costs
+
+
+def main(argv=None) -> None:
+    ap = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
+    ap.add_argument("--repeats", type=int, default=7)
+    ap.add_argument("--file", default=str(ROOT / "sample_data" / "cubic_small_noisy.csv"))
+    args = ap.parse_args(argv)
+    data = str(Path(args.file).resolve())
+    py = sys.executable
+    cases = {
+        "fit --degree 3": (
+            [py, "-m", "app.cli", "fit", data, "--degree", "3"],
+            [py, "-c", FIT_REFERENCE, data],
+        ),
+        "sweep": ([py, "-m", "app.cli", "sweep", data], [py, "-c", SWEEP_REFERENCE, data]),
+    }
+    print(environment())
+    print(f"file: {data}; {args.repeats} interleaved runs each, fresh interpreter per run")
+    print(f"{'command':16s} {'degreescope':>12s} {'pandas+numpy':>13s} {'ratio':>7s}")
+    funcs = {}
+    for name, (ours, ref) in cases.items():
+        funcs[f"{name}|ours"] = _runner(ours)
+        funcs[f"{name}|ref"] = _runner(ref)
+    med = interleaved_medians(funcs, args.repeats)
+    for name in cases:
+        a, b = med[f"{name}|ours"], med[f"{name}|ref"]
+        print(f"{name:16s} {a * 1000:10.0f} ms {b * 1000:11.0f} ms {a / b:6.2f}x")
+    print("\nimport cost (ms, cumulative, one run each; nested: fitting's figure includes the pandas, numpy and")
+    print("scipy.linalg it imports first; sklearn is imported by the sweep when it splits the rows):")
+    for name, (ours, ref) in cases.items():
+        for who, argv_ in (("degreescope", ours[1:]), ("reference", ref[1:])):
+            costs = import_costs(argv_)
+            shown = ", ".join(f"{k} {v:.0f}" for k, v in sorted(costs.items(), key=lambda kv: -kv[1]))
+            print(f"  {name:16s} {who:12s} {shown}")
+
+
+if __name__ == "__main__":
+    main()
