@@ -12,10 +12,10 @@ the charts, ``exports`` the downloads.
 
 from __future__ import annotations
 
-__all__ = ["create_app"]
+from .server import DEFAULT_UPLOAD_LIMIT_BYTES
+from .store import DEFAULT_CACHE_BYTES
 
-DEFAULT_UPLOAD_LIMIT_BYTES = 128 * 1024 * 1024
-DEFAULT_CACHE_BYTES = 1024**3
+__all__ = ["create_app"]
 
 
 def upload_max_size(upload_limit_bytes: int) -> int:
@@ -69,5 +69,4 @@ def create_app(
 
     app.layout = serve_layout
     callbacks.register(app, service)
-    app.degreescope_service = service  # for tests and benchmarks
     return app

@@ -17,7 +17,7 @@ import numpy as np
 import plotly.graph_objects as go
 from dash import Patch
 
-from . import ids
+from . import ids, text
 from .service import DegreeView, ModelView, SplitView
 
 INK = "#1c2a35"
@@ -227,7 +227,8 @@ def fit_figure(view: SplitView, dv: DegreeView, bands=(CONFIDENCE,)) -> go.Figur
             hovertemplate="x %{x:.6g}<br>fit %{y:.6g}<extra></extra>",
         )
     )
-    layout = _base_layout(fit_title(view, dv.degree), plot_text(view.x_label), plot_text(view.y_label), dv.caption)
+    caption = text.degree_caption(view, dv)
+    layout = _base_layout(fit_title(view, dv.degree), plot_text(view.x_label), plot_text(view.y_label), caption)
     # y range from the points (not from a wild curve), with room
     ys = np.concatenate([view.train_y, view.test_y])
     ylo, yhi = float(ys.min()), float(ys.max())
@@ -270,7 +271,7 @@ def fit_figure(view: SplitView, dv: DegreeView, bands=(CONFIDENCE,)) -> go.Figur
     if view.sampled:
         layout["annotations"].append(
             dict(
-                text=f"showing a random sample of {view.points_shown:,} of {view.rows_used:,} points; fits use every row",
+                text=text.sample_note(view.points_shown, view.rows_used),
                 xref="paper",
                 yref="paper",
                 x=1,
@@ -304,7 +305,7 @@ def fit_degree_patch(view: SplitView, dv: DegreeView, bands=(CONFIDENCE,)) -> Pa
     for i in (ids.FIT_TRACE_CONF_LO, ids.FIT_TRACE_CONF_HI):
         p["data"][i]["visible"] = CONFIDENCE in bands
     p["layout"]["title"]["text"] = fit_title(view, dv.degree)
-    p["layout"]["annotations"][0]["text"] = caption_text(dv.caption)
+    p["layout"]["annotations"][0]["text"] = caption_text(text.degree_caption(view, dv))
     return p
 
 
@@ -359,7 +360,7 @@ def error_figure(view: SplitView, dv: DegreeView) -> go.Figure:
             hovertemplate="degree %{x}<br>steady CV RMSE %{y:.4g}<extra></extra>",
         )
     )
-    cur_y = _current_y(view, dv.degree)
+    cur_y = _current_y(dv)
     traces.append(
         _line(
             x=[dv.degree],
@@ -385,8 +386,7 @@ def error_figure(view: SplitView, dv: DegreeView) -> go.Figure:
             hoverinfo="skip",
         )
     )
-    caption = dv.caption
-    layout = _base_layout(error_title(view), "polynomial degree", _rmse_title(view), caption)
+    layout = _base_layout(error_title(view), "polynomial degree", _rmse_title(view), text.degree_caption(view, dv))
     layout["yaxis"].update(
         type="log", dtick=1, minor=dict(ticks="inside", ticklen=4, showgrid=True, gridcolor="#f1eee7")
     )
@@ -398,9 +398,9 @@ def error_figure(view: SplitView, dv: DegreeView) -> go.Figure:
 def error_degree_patch(view: SplitView, dv: DegreeView) -> Patch:
     p = Patch()
     p["data"][ids.ERR_TRACE_CURRENT]["x"] = [dv.degree]
-    p["data"][ids.ERR_TRACE_CURRENT]["y"] = [_current_y(view, dv.degree)]
+    p["data"][ids.ERR_TRACE_CURRENT]["y"] = [_current_y(dv)]
     p["layout"]["shapes"][0] = _degree_band(dv.degree)
-    p["layout"]["annotations"][0]["text"] = caption_text(dv.caption)
+    p["layout"]["annotations"][0]["text"] = caption_text(text.degree_caption(view, dv))
     return p
 
 
@@ -419,17 +419,19 @@ def _degree_band(d: int) -> dict:
     )
 
 
-def _current_y(view: SplitView, d: int) -> float:
-    v = float(view.sweep.test_rmse[view.sweep.index(d)])
-    if not np.isfinite(v):
-        v = float(np.nanmin(view.sweep.test_rmse))
-    return v
+def _gap(v: float) -> float | None:
+    """A y value for plotly: a missing (non-finite) value is drawn as a gap, never moved."""
+    return v if np.isfinite(v) else None
 
 
-def _steady_y(view: SplitView, d: int) -> float:
-    st = view.steady
-    hits = np.nonzero(st.degrees == d)[0]
-    return float(st.test_rmse[hits[0]]) if hits.size else float(np.nanmin(st.test_rmse))
+def _current_y(dv: DegreeView) -> float | None:
+    """The current degree's marker sits on the degree view's test RMSE (a gap when it is missing)."""
+    return _gap(dv.test_rmse)
+
+
+def _steady_y(view: SplitView, d: int) -> float | None:
+    """The recommended degree's marker sits on the verdict sweep's test RMSE there (a gap when missing)."""
+    return _gap(view.verdict_test_rmse(d))
 
 
 def _rmse_title(view: SplitView) -> str:
@@ -465,10 +467,7 @@ def residual_figure(view: SplitView, model: ModelView) -> go.Figure:
         f"Residuals at degree {model.fit.degree}",
         plot_text(view.x_label),
         plot_text(f"residual{unit}"),
-        (
-            "y − fitted value" + ("; a random sample of the points is shown." if model.residual_sampled else "."),
-            f"The fit used {model.fitted_rows}.",
-        ),
+        text.residual_caption(model),
     )
     layout["margin"] = dict(l=72, r=24, t=64, b=100)
     layout["shapes"] = [
