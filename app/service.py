@@ -385,6 +385,14 @@ def _too_large(size: int, limit: int) -> str:
     )
 
 
+def _what_is_wanted(token: str) -> str:
+    try:
+        float(token)
+    except ValueError:
+        return "a number"
+    return "a finite number"
+
+
 def parse_x_values(text_in: str | None, decimal: str = ".") -> np.ndarray:
     """x values typed by the user.
 
@@ -408,7 +416,10 @@ def parse_x_values(text_in: str | None, decimal: str = ".") -> np.ndarray:
     for p in parts:
         v = _finite_number(p.replace(",", ".") if comma else p)
         if v is None:
-            raise FitError(f"{text.echo(p)} is not a finite number; type x values like {example}.")
+            kind = (
+                "a finite number" if _finite_number(1.0 if p.lower().lstrip("+-") in _NON_FINITE else p) else "a number"
+            )
+            raise FitError(f"{text.echo(p)} is not {kind}; type x values like {example}.")
         out.append(v)
     return np.asarray(out, dtype=float)
 
