@@ -414,12 +414,10 @@ def parse_x_values(text_in: str | None, decimal: str = ".") -> np.ndarray:
     example = "1,5; 2; 3e2" if comma else "1.5, 2, 3e2"
     out = []
     for p in parts:
-        v = _finite_number(p.replace(",", ".") if comma else p)
+        token = p.replace(",", ".") if comma else p
+        v = _finite_number(token)
         if v is None:
-            kind = (
-                "a finite number" if _finite_number(1.0 if p.lower().lstrip("+-") in _NON_FINITE else p) else "a number"
-            )
-            raise FitError(f"{text.echo(p)} is not {kind}; type x values like {example}.")
+            raise FitError(f"{text.echo(p)} is not {_what_is_wanted(token)}; type x values like {example}.")
         out.append(v)
     return np.asarray(out, dtype=float)
 
