@@ -223,22 +223,27 @@ class SplitView:
 
     @property
     def recommended_degree(self) -> int:
+        """The verdict sweep's recommended degree."""
         return int(self.steady.recommended_degree)
 
     @property
     def x_label(self) -> str:
+        """The x axis title: name and unit."""
         return text.axis_label(self.x_name, self.x_unit)
 
     @property
     def y_label(self) -> str:
+        """The y axis title: name and unit."""
         return text.axis_label(self.y_name, self.y_unit)
 
     @property
     def split_label(self) -> str:
+        """The chosen split as the engine's sweep names it (its ``scheme``)."""
         return self.sweep.scheme
 
     @property
     def steady_label(self) -> str:
+        """What the recommendation rests on (the verdict sweep's scheme, or the grouped folds)."""
         return text.verdict_label(self.steady.scheme, self.columns.group, self.steady.n_splits)
 
     def verdict_test_rmse(self, degree: int) -> float:
@@ -283,6 +288,7 @@ class ModelView:
 
     @property
     def equation(self) -> str:
+        """The fit in the power basis, original units, 8 significant digits."""
         return self.fit.equation(digits=8, x="x", y="y")
 
     @property
@@ -306,11 +312,13 @@ class ModelView:
         return rows
 
     @property
-    def fitted_on(self) -> str:  # read by app/exports.py; the sentence lives in app/text.py
+    def fitted_on(self) -> str:
+        """Which rows the fit used, in words (read by app/exports.py; the sentence lives in app/text.py)."""
         return text.fitted_on(self)
 
     @property
     def fitted_rows(self) -> str:
+        """The rows the fit used, short (the words live in app/text.py)."""
         return text.fitted_rows(self)
 
 

@@ -272,3 +272,12 @@ def test_a_long_list_of_x_values_shows_a_short_table_and_says_so(sensor):
     assert len(table.children[1].children) == PREDICT_ROWS_SHOWN
     file = downloads.on_export(service, "csv", key, 2, [], text)["download"]
     assert file["content"].count("\n") == 601  # header + every typed value
+
+
+def test_the_page_and_the_report_show_the_same_caution():
+    from app import exports, text
+
+    assert text.CAUTION_TEXT == exports.CAUTION_TEXT
+    page = app.create_app().layout()
+    caution = next(c for c in page._traverse() if getattr(c, "id", None) == "caution")
+    assert text.CAUTION_TEXT in str(caution.to_plotly_json())
