@@ -137,7 +137,8 @@ def test_mouse_drag_moves_the_degree(page):
         page.mouse.move(thumb["x"] + (target - thumb["x"]) * i / 10, thumb["y"] + thumb["height"] / 2)
         page.wait_for_timeout(30)
     page.wait_for_function(
-        "(d0) => !document.querySelector('#fit-chart .js-plotly-plot')._fullLayout.title.text.startsWith('Degree ' + d0 + ' ')",
+        "(d0) => !document.querySelector('#fit-chart .js-plotly-plot')"
+        "._fullLayout.title.text.startsWith('Degree ' + d0 + ' ')",
         arg=d0,
     )
     page.mouse.up()
