@@ -103,9 +103,15 @@ def test_model_outputs_table_equation_and_url(sensor):
     assert "Student's t" in note
 
 
-def dash_call(dash_app, output_id: str, values: dict) -> dict:
-    """POST one callback request the way the page does; ``values`` maps "id.prop" to its value."""
-    key = next(k for k in dash_app.callback_map if k.startswith(f"..{output_id}.") and "@" not in k.split("...")[0])
+def dash_call(dash_app, first_output: str, values: dict) -> dict:
+    """POST one callback request the way the page does; ``values`` maps "id.prop" to its value.
+
+    The callback is the one whose first output is ``first_output`` ("id.prop"), preferring the one that
+    does not share it (``allow_duplicate``).
+    """
+    firsts = {k: k.strip(".").split("...")[0] for k in dash_app.callback_map}
+    key = next((k for k, f in firsts.items() if f == first_output), None)
+    key = key or next(k for k, f in firsts.items() if f.split("@")[0] == first_output)
     spec = dash_app.callback_map[key]
 
     def deps(items):
@@ -143,22 +149,27 @@ def split_values(store, **kw) -> dict:
 
 
 def test_a_failing_callback_shows_a_message_and_leaves_the_rest(monkeypatch, caplog):
-    # through Dash itself: the panel's on_error puts the message in its notice (set_props); no output changes
+    # through Dash itself: the panel's on_error puts the message in its notice; no other output changes
     dash_app = app.create_app()
     store = next(c for c in dash_app.layout()._traverse() if getattr(c, "id", None) == ids.DATASET).data
     gone = dict(store, id="no-such-id")
-    out = dash_call(dash_app, ids.FIT_CHART, split_values(gone))
-    assert out.get("response", {}) == {}  # every output keeps its value
-    assert "upload the file again" in json.dumps(out["sideUpdate"][ids.FIT_NOTICE])
+    out = dash_call(dash_app, "fit-chart.figure", split_values(gone))
+    assert list(out["response"]) == [ids.FIT_NOTICE]  # every other output keeps its value
+    assert "upload the file again" in json.dumps(out["response"][ids.FIT_NOTICE])
 
     def boom(*a, **k):
         raise RuntimeError("unexpected")
 
     monkeypatch.setattr(FitService, "split_view", boom)
-    out = dash_call(dash_app, ids.FIT_CHART, split_values(store))
-    assert out.get("response", {}) == {}
-    assert INTERNAL_ERROR in json.dumps(out["sideUpdate"][ids.FIT_NOTICE])
+    out = dash_call(dash_app, "fit-chart.figure", split_values(store))
+    assert list(out["response"]) == [ids.FIT_NOTICE]
+    assert INTERNAL_ERROR in json.dumps(out["response"][ids.FIT_NOTICE])
     assert "callback failed" in caplog.text and "RuntimeError" in caplog.text
+    # a notice that is not an output of its callback is set beside the answer (set_props)
+    monkeypatch.setattr(split, "whole", boom)
+    out = dash_call(dash_app, "seed.value", {"new-split.n_clicks": 1, "seed.value": 0})
+    assert "response" not in out or out["response"] == {}
+    assert INTERNAL_ERROR in json.dumps(out["sideUpdate"][ids.SPLIT_NOTE])
 
 
 def test_a_degree_that_is_not_a_number_gives_a_message_not_a_traceback(sensor):
@@ -207,9 +218,9 @@ def test_oversize_upload_message(sample_dir):
 
     small = FitService(DatasetStore(), upload_limit_bytes=2000)
     dash_app = app.create_app(upload_limit_bytes=2000)
-    out = dash_call(dash_app, ids.DATASET, {"upload.contents": data_url("x,y\n" + "1,2\n" * 1000)})
-    assert out.get("response", {}) == {}  # the dataset on screen stays
-    assert "over this server's upload limit" in json.dumps(out["sideUpdate"][ids.UPLOAD_NOTICE])
+    out = dash_call(dash_app, "dataset.data", {"upload.contents": data_url("x,y\n" + "1,2\n" * 1000)})
+    assert list(out["response"]) == [ids.UPLOAD_NOTICE]  # the dataset on screen stays
+    assert "over this server's upload limit" in json.dumps(out["response"][ids.UPLOAD_NOTICE])
     with pytest.raises(DegreescopeError, match="over this server's upload limit"):
         data.on_upload(small, data_url("x,y\n" + "1,2\n" * 1000), "big.csv")
 

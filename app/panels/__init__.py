@@ -4,7 +4,8 @@ Each module also names its ``SLOT`` on the page ("side", "main" or "tools"), and
 callback's outputs and inputs (Dash's dictionary form) next to the handler, a plain function
 of the service and the named inputs that returns a dict of named outputs. A failing handler
 never breaks the page: Dash's ``on_error`` puts the message in the panel's own notice
-(``set_props``) and leaves every output as it was.
+(an output of the callback, or ``set_props`` when it is not) and leaves every other output
+as it was.
 
 To add a panel: write ``app/panels/<name>.py`` with ``SLOT``, ``layout`` and ``register``, and
 add it to ``PANELS`` below; its place on the page follows its slot and its order here.

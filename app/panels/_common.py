@@ -6,7 +6,7 @@ import logging
 from dataclasses import dataclass
 from typing import Callable
 
-from dash import html, set_props
+from dash import html, no_update, set_props
 
 from fitting import DegreescopeError
 
@@ -46,12 +46,19 @@ def user_message(exc: BaseException) -> str:
     return INTERNAL_ERROR
 
 
-def notice_on_error(notice_id: str, make: Callable[[str], object] = components.error_span) -> Callable:
-    """A Dash ``on_error`` handler: the message goes to the panel's notice, every output keeps its value."""
+def notice_on_error(outputs: dict, notice: str, make: Callable[[str], object] = components.error_span) -> Callable:
+    """A Dash ``on_error`` handler: the message goes to the panel's notice, every other output keeps its value.
 
-    def handle(exc: Exception) -> None:
-        set_props(notice_id, {"children": make(user_message(exc))})
-        # returning None: Dash sends no_update for every output of the callback
+    ``notice`` names one of ``outputs`` (the usual case: a panel clears its notice on success), or,
+    when the notice is not an output of the callback, a component id set with ``set_props``.
+    """
+
+    def handle(exc: Exception) -> dict | None:
+        message = make(user_message(exc))
+        if notice in outputs:
+            return {name: message if name == notice else no_update for name in outputs}
+        set_props(notice, {"children": message})
+        return None  # Dash sends no_update for every output
 
     return handle
 

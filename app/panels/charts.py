@@ -127,5 +127,5 @@ def register(app, service: FitService) -> None:
         inputs=INPUTS,
         state=STATE,
         prevent_initial_call="initial_duplicate",
-        on_error=notice_on_error(ids.FIT_NOTICE),
+        on_error=notice_on_error(OUTPUT, "notice"),
     )(lambda **kw: on_split(service, **kw))

@@ -141,11 +141,11 @@ def register(app, service: FitService) -> None:
         inputs=UPLOAD_INPUTS,
         state=UPLOAD_STATE,
         prevent_initial_call=True,
-        on_error=notice_on_error(ids.UPLOAD_NOTICE),
+        on_error=notice_on_error(UPLOAD_OUTPUT, "notice"),
     )(lambda contents, filename: on_upload(service, contents, filename))
     app.callback(
         output=DATASET_OUTPUT,
         inputs=DATASET_INPUTS,
         state=DATASET_STATE,
-        on_error=notice_on_error(ids.INTAKE_REPORT, components.error_paragraph),
+        on_error=notice_on_error(DATASET_OUTPUT, "intake", components.error_paragraph),
     )(lambda dataset, search: on_dataset(service, dataset, search))

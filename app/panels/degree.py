@@ -109,6 +109,6 @@ def register(app, service: FitService) -> None:
         inputs=INPUTS,
         state=STATE,
         prevent_initial_call=True,
-        on_error=notice_on_error(ids.FIT_NOTICE),
+        on_error=notice_on_error(OUTPUT, "notice"),
     )(lambda **kw: on_degree(service, triggered=_triggered_prop(), **kw))
     app.clientside_callback(SETTLE_JS, Output(ids.DEGREE_SETTLED, "data"), Input(ids.DEGREE, "value"))

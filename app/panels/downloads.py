@@ -123,7 +123,7 @@ def register(app, service: FitService) -> None:
         inputs=INPUTS,
         state=STATE,
         prevent_initial_call=True,
-        on_error=notice_on_error(ids.EXPORT_NOTICE),
+        on_error=notice_on_error(OUTPUT, "notice"),
     )(export_cb)
     app.clientside_callback(
         IMAGE_JS,

@@ -72,6 +72,6 @@ def on_model(service: FitService, key, degree) -> dict:
 
 def register(app, service: FitService) -> None:
     """Wire the model card."""
-    app.callback(output=OUTPUT, inputs=INPUTS, on_error=notice_on_error(ids.MODEL_NOTE))(
+    app.callback(output=OUTPUT, inputs=INPUTS, on_error=notice_on_error(OUTPUT, "note"))(
         lambda key, degree: on_model(service, key, degree)
     )

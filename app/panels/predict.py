@@ -50,6 +50,6 @@ def on_predict(service: FitService, text, key, degree) -> dict:
 
 def register(app, service: FitService) -> None:
     """Wire the prediction table."""
-    app.callback(output=OUTPUT, inputs=INPUTS, on_error=notice_on_error(ids.PREDICT_TABLE, components.error_paragraph))(
+    app.callback(output=OUTPUT, inputs=INPUTS, on_error=notice_on_error(OUTPUT, "table", components.error_paragraph))(
         lambda text, key, degree: on_predict(service, text, key, degree)
     )

@@ -99,11 +99,11 @@ def on_new_split(n_clicks, seed) -> dict:
 
 def register(app, service) -> None:
     """Wire the mode switch and the new-split button."""
-    app.callback(output=MODE_OUTPUT, inputs=MODE_INPUTS, on_error=notice_on_error(ids.SPLIT_NOTE))(on_mode)
+    app.callback(output=MODE_OUTPUT, inputs=MODE_INPUTS, on_error=notice_on_error(MODE_OUTPUT, "note"))(on_mode)
     app.callback(
         output=NEW_SPLIT_OUTPUT,
         inputs=NEW_SPLIT_INPUTS,
         state=NEW_SPLIT_STATE,
         prevent_initial_call=True,
-        on_error=notice_on_error(ids.SPLIT_NOTE),
+        on_error=notice_on_error(NEW_SPLIT_OUTPUT, ids.SPLIT_NOTE),
     )(on_new_split)
