@@ -6,8 +6,9 @@
 
 Data flow: ``dcc.Upload`` -> ``service.FitService.load_upload`` -> ``store.DatasetStore``
 (server memory, keyed by an unguessable id) -> the page's ``dcc.Store`` holds only that
-id and the settings -> callbacks ask the service for cached views -> ``figures`` builds
-the charts, ``exports`` the downloads.
+id and the settings -> each panel's callbacks (``panels/``) ask the service for cached
+views -> ``figures`` builds the charts, ``components`` the tables, ``text`` the words,
+``exports`` the downloads.
 """
 
 from __future__ import annotations
