@@ -11,12 +11,11 @@ from dash import Input, Output, State, dcc, html, no_update
 from fitting import DegreescopeError
 
 from .. import components, ids, text
-from ..service import FitService
+from ..service import SPLIT_MODES, FitService
 from ._common import PageConfig, notice_on_error, panel, whole
 from .settings import parse_query
 
 SLOT = "side"
-SPLIT_MODES = ("holdout", "ordered", "kfold")
 
 
 def _size_text(limit: int) -> str:

@@ -6,6 +6,7 @@ comma, "250,5" is one value and semicolons or new lines separate values.
 
 from __future__ import annotations
 
+import numpy as np
 from dash import Input, Output, dcc, html
 
 from .. import components, ids
@@ -34,7 +35,7 @@ INPUTS = dict(
 )
 
 
-def typed_x(text, key) -> object:
+def typed_x(text, key) -> np.ndarray:
     """The typed x values, read with the decimal mark of the file on screen."""
     return parse_x_values(text, decimal=(key or {}).get("decimal", "."))
 
