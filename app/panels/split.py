@@ -35,14 +35,16 @@ def layout(cfg: PageConfig) -> html.Section:
     folds = html.Div(
         [
             html.Label("Folds (k)", htmlFor=ids.FOLDS),
-            dcc.Input(id=ids.FOLDS, type="number", min=2, max=50, step=1, value=10, debounce=True, className="num"),
+            # no min/max/step in the browser: a value out of range would be held back there without a word;
+            # the server receives it and the split note says what was refused and what is in force
+            dcc.Input(id=ids.FOLDS, type="number", step="any", value=10, debounce=True, className="num"),
         ],
         id=ids.FOLDS_BOX,
     )
     seed = html.Div(
         [
             html.Label("Seed", htmlFor=ids.SEED),
-            dcc.Input(id=ids.SEED, type="number", min=0, step=1, value=0, debounce=True, className="num"),
+            dcc.Input(id=ids.SEED, type="number", step="any", value=0, debounce=True, className="num"),
             html.Button("Draw a new split", id=ids.NEW_SPLIT, n_clicks=0, className="btn"),
         ],
         className="seed-row",
