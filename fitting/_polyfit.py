@@ -366,7 +366,8 @@ class PolynomialFit:
             return nan, nan.copy()
         se = self.standard_error_of_fit(x)
         if kind == "prediction":
-            se = np.sqrt(se**2 + self.residual_sd**2 / weight_at(self.weighting, x, yhat))
+            # hypot: no square leaves double precision, whatever the magnitude of y
+            se = np.hypot(se, self.residual_sd / np.sqrt(weight_at(self.weighting, x, yhat)))
         q = t_quantile(level, self.dof)
         return yhat - q * se, yhat + q * se
 
@@ -567,6 +568,7 @@ class _Design:
     v_ld: np.ndarray | None  # x / scale through the origin, else None
     gram: np.ndarray
     y_exp: int = 0
+    x_exp: int = 0  # x above is x / 2**x_exp, and offset and scale are in those units
 
     @property
     def n(self) -> int:
@@ -678,10 +680,11 @@ def _extended_basis(x, y, w, ncols: int, through_origin: bool) -> _Design:
 
     Model: y ~ v(x) * sum_j c_j T_j(t), weight w; v = x / scale through the origin, else 1.
     """
+    x_exp, y_exp = pow2_exponent(x), pow2_exponent(y)
+    x = np.ldexp(x, -x_exp) if x_exp else x
+    ys = np.ldexp(y, -y_exp) if y_exp else y
     lo, hi = float(x.min()), float(x.max())
     offset, scale = domain_for_origin(lo, hi) if through_origin else _basis.domain_map(lo, hi)
-    y_exp = pow2_exponent(y)
-    ys = np.ldexp(y, -y_exp) if y_exp else y
     x_ld = x.astype(LD)
     rows_ld = _basis.chebyshev_rows((x_ld - LD(offset)) / LD(scale), ncols)
     w_ld = None if w is None else w.astype(LD)
@@ -702,6 +705,7 @@ def _extended_basis(x, y, w, ncols: int, through_origin: bool) -> _Design:
         v_ld=v_ld,
         gram=gram,
         y_exp=y_exp,
+        x_exp=x_exp,
     )
 
 
@@ -871,13 +875,18 @@ def _to_power_basis(d: _Design, c_ld, exact, inv, inv_dec, sigma2_ld, degree: in
 
 
 def _assemble(d: _Design, parts, stats, coef_pow, cov_pow, names) -> PolynomialFit:
-    """The PolynomialFit, with every y-scaled number multiplied back by 2**y_exp exactly."""
+    """The PolynomialFit, with every scaled number multiplied back exactly.
+
+    Coefficient j of the power basis scales by 2**(y_exp - j x_exp), covariance entry
+    (i, j) by 2**(2 y_exp - (i + j) x_exp), every other y-unit number by 2**y_exp.
+    """
     k = d.y_exp
     notes = parts["notes"]
+    powers = np.arange(coef_pow.size)
     with np.errstate(over="ignore", under="ignore"):
-        cov = np.ldexp(cov_pow, 2 * k)
-        se_pow = np.sqrt(np.maximum(np.diag(cov_pow), 0.0))
-        se_pow = np.ldexp(se_pow, k)
+        coef = np.ldexp(coef_pow, k - d.x_exp * powers)
+        cov = np.ldexp(cov_pow, 2 * k - d.x_exp * (powers[:, None] + powers[None, :]))
+        se_pow = np.ldexp(np.sqrt(np.maximum(np.diag(cov_pow), 0.0)), k - d.x_exp * powers)
         rss = float(np.ldexp(stats["rss"], 2 * k))
     lost = np.isfinite(cov_pow) & (cov_pow != 0) & ~((np.abs(cov) >= np.finfo(np.float64).tiny) & np.isfinite(cov))
     if lost.any():
@@ -890,7 +899,7 @@ def _assemble(d: _Design, parts, stats, coef_pow, cov_pow, names) -> PolynomialF
     return PolynomialFit(
         degree=parts["degree"],
         through_origin=d.through_origin,
-        coefficients=np.ldexp(coef_pow, k),
+        coefficients=coef,
         standard_errors=se_pow,
         covariance=cov,
         residual_sd=float(np.ldexp(stats["residual_sd"], k)),
@@ -900,11 +909,11 @@ def _assemble(d: _Design, parts, stats, coef_pow, cov_pow, names) -> PolynomialF
         dof=stats["dof"],
         n=d.n,
         condition_number=parts["cond"],
-        domain=(float(d.x.min()), float(d.x.max())),
+        domain=(float(np.ldexp(d.x.min(), d.x_exp)), float(np.ldexp(d.x.max(), d.x_exp))),
         rss=rss,
         weighted=d.w is not None,
-        offset=d.offset,
-        scale=d.scale,
+        offset=float(np.ldexp(d.offset, d.x_exp)),
+        scale=float(np.ldexp(d.scale, d.x_exp)),
         basis_coefficients=np.ldexp(parts["c_ld"].astype(np.float64), k),
         basis_inverse_gram=parts["inv"].astype(np.float64),
         warnings=tuple(notes),

@@ -206,7 +206,7 @@ class DegreeSweep:
         u = solve_triangular(r, a.T, trans="T")
         se = sd * np.sqrt(np.sum(u * u, axis=0))
         if kind == "prediction":
-            se = np.sqrt(se**2 + sd**2)
+            se = np.hypot(se, sd)  # no square leaves double precision
         elif kind != "confidence":
             raise FitError(f'Interval kind must be "confidence" or "prediction", not {kind!r}.')
         q = t_quantile(level, dof)
@@ -558,15 +558,19 @@ def _score_splits(partitions, degs: list[int], ncols: int, y_exp: int = 0) -> di
     for d in failed:
         i = degs.index(d)
         tr_rmse[i] = te_rmse[i] = tr_r2[i] = te_r2[i] = np.nan
-    if y_exp:
-        tr_rmse, te_rmse = np.ldexp(tr_rmse, y_exp), np.ldexp(te_rmse, y_exp)
-    out = dict(tr_rmse=tr_rmse, te_rmse=te_rmse, failed=failed, n_train_min=n_train_min, nspl=nspl)
-    out["train_rmse"] = np.nanmean(tr_rmse, axis=1) if nspl else np.full(ndeg, np.nan)
+    out = dict(failed=failed, n_train_min=n_train_min, nspl=nspl)
     with np.errstate(invalid="ignore"):
-        out["test_rmse"] = np.mean(te_rmse, axis=1)
-        out["se"] = np.std(te_rmse, axis=1, ddof=1) / math.sqrt(nspl) if nspl > 1 else np.full(ndeg, np.nan)
+        # means and SEs in the scaled units (squares stay inside double precision), then scaled back exactly
+        scaled = dict(
+            tr_rmse=tr_rmse,
+            te_rmse=te_rmse,
+            train_rmse=np.nanmean(tr_rmse, axis=1) if nspl else np.full(ndeg, np.nan),
+            test_rmse=np.mean(te_rmse, axis=1),
+            se=np.std(te_rmse, axis=1, ddof=1) / math.sqrt(nspl) if nspl > 1 else np.full(ndeg, np.nan),
+        )
         out["train_r2"] = np.mean(tr_r2, axis=1)
         out["test_r2"] = np.nanmean(te_r2, axis=1) if np.isfinite(te_r2).any() else np.full(ndeg, np.nan)
+    out.update({k: np.ldexp(v, y_exp) if y_exp else v for k, v in scaled.items()})
     return out
 
 
