@@ -282,36 +282,56 @@ def _holdout_partition(x, holdout, *, ordered, repeats, seed):
         if repeats > 1:
             scheme += " (repeats have no effect on an ordered holdout)"
         return [(labels, one)], scheme
-    from sklearn.model_selection import ShuffleSplit
-
-    parts = []
-    splitter = ShuffleSplit(n_splits=int(repeats), test_size=n_test, random_state=seed)
-    for _, test_idx in splitter.split(np.empty((n, 1))):
-        labels = np.zeros(n, dtype=np.int64)
-        labels[test_idx] = 1
-        parts.append((labels, one))
+    parts = [(labels, one) for labels in shuffle_holdout_labels(n, n_test, repeats=repeats, seed=seed)]
     scheme = f"{frac:.0%} random holdout (seed {seed}" + (f", {repeats} repeats)" if repeats > 1 else ")")
     return parts, scheme
 
 
 def _kfold_partition(n: int, folds, *, repeats, seed):
     k = check_folds(folds, n)
-    from sklearn.model_selection import KFold, RepeatedKFold
-
-    splitter = (
-        KFold(n_splits=k, shuffle=True, random_state=seed)
-        if repeats <= 1
-        else RepeatedKFold(n_splits=k, n_repeats=int(repeats), random_state=seed)
-    )
-    parts = []
-    labels = np.empty(n, dtype=np.int64)
     splits = [Split(test=(j,), train=tuple(o for o in range(k) if o != j)) for j in range(k)]
-    for i, (_, test_idx) in enumerate(splitter.split(np.empty((n, 1)))):
-        labels[test_idx] = i % k
-        if i % k == k - 1:
-            parts.append((labels.copy(), splits))
+    parts = [(labels, splits) for labels in kfold_labels(n, k, repeats=repeats, seed=seed)]
     scheme = f"{k}-fold cross-validation (seed {seed}" + (f", {repeats} repeats)" if repeats > 1 else ")")
     return parts, scheme
+
+
+def kfold_labels(n: int, k: int, *, repeats: int = 1, seed: int = 0) -> list[np.ndarray]:
+    """For each repeat, a fold label (0 .. k - 1) per row.
+
+    The same folds as scikit-learn's KFold(n_splits=k, shuffle=True, random_state=seed)
+    for one repeat and RepeatedKFold(n_splits=k, n_repeats=repeats, random_state=seed)
+    for more: one numpy RandomState(seed) shuffles 0 .. n - 1 once per repeat, and fold j
+    takes the next n // k rows of the shuffle (one more for the first n % k folds).
+    scikit-learn is not imported, so the command line starts fast.
+    """
+    rng = np.random.RandomState(seed)
+    sizes = np.full(k, n // k, dtype=np.int64)
+    sizes[: n % k] += 1
+    fold_of_position = np.repeat(np.arange(k, dtype=np.int64), sizes)
+    out = []
+    for _ in range(int(repeats)):
+        order = np.arange(n)
+        rng.shuffle(order)
+        labels = np.empty(n, dtype=np.int64)
+        labels[order] = fold_of_position
+        out.append(labels)
+    return out
+
+
+def shuffle_holdout_labels(n: int, n_test: int, *, repeats: int = 1, seed: int = 0) -> list[np.ndarray]:
+    """For each repeat, 1 for a held-out row and 0 for a training row.
+
+    The same test rows as scikit-learn's ShuffleSplit(n_splits=repeats, test_size=n_test,
+    random_state=seed): one RandomState(seed) draws a permutation per repeat and the
+    first n_test rows of it are held out. scikit-learn is not imported.
+    """
+    rng = np.random.RandomState(seed)
+    out = []
+    for _ in range(int(repeats)):
+        labels = np.zeros(n, dtype=np.int64)
+        labels[rng.permutation(n)[:n_test]] = 1
+        out.append(labels)
+    return out
 
 
 def _label_partition(n: int, folds):
