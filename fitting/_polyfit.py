@@ -27,6 +27,17 @@ How the fit is computed
 5. Chebyshev coefficients and their covariance are converted to the power basis
    of the original x in 80-digit decimals and rounded once.
 
+Extreme magnitudes: x and y beyond 2**±100 are divided by exact powers of two
+before step 1 (``pow2_exponent``), so no sum of squares leaves double precision,
+and every reported number is multiplied back exactly. Only what doubles cannot
+hold is refused: non-finite values and an x range whose width overflows.
+Covariance entries that a double cannot hold are given as infinite or zero, with
+a warning.
+
+Weights are inverse variances: a weights column (recorded as weighting "column")
+or a named rule (``fitting.WEIGHTINGS``), whose weight at a new x gives the
+prediction band there (s² / w(x0)).
+
 This reaches at least 13 correct digits (LRE) on the NIST StRD polynomial sets
 the test-suite holds (limited by the rounding of their decimal data to
 doubles) and all 15 printed digits on exactly representable sets such as
@@ -97,7 +108,9 @@ COLUMN_INTERVAL_NOTE = (
 # input checks shared by fits and sweeps
 
 
-def validate_xyw(x: ArrayLike, y: ArrayLike, weights: ArrayLike | None = None):
+def validate_xyw(
+    x: ArrayLike, y: ArrayLike, weights: ArrayLike | None = None
+) -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:
     """Return float64 copies of x, y, weights after checking them; raise FitError.
 
     Only what double precision cannot hold is refused: non-finite values, and an x

@@ -16,10 +16,15 @@ to the highest at once). Everything else is done on these small factors:
   Q is orthogonal: the test error needs no pass over the test rows either.
 
 The results equal a plain refit on every (degree, fold) to rounding error;
-tests check this against scikit-learn's KFold and PredefinedSplit.
+tests check this against scikit-learn's KFold and PredefinedSplit. The shuffled folds
+and holdouts are scikit-learn's KFold, RepeatedKFold and ShuffleSplit row for row
+(``kfold_labels``, ``shuffle_holdout_labels``), made without importing scikit-learn.
+
+Extreme magnitudes: y is divided by an exact power of two before any sum of
+squares (``_polyfit.pow2_exponent``) and every reported error is multiplied back.
 
 BLAS runs single-threaded for the duration of ``sweep_degrees`` (see
-``_polyfit.single_thread_blas``): its LAPACK calls are tall-skinny or tiny, and
+``_linalg.single_thread_blas``): its LAPACK calls are tall-skinny or tiny, and
 multi-threaded BLAS on a loaded machine made a 10-fold sweep 30x slower.
 Callers of ``sweep_from_blocks`` and ``block_factor`` may do the same.
 
@@ -57,6 +62,8 @@ __all__ = [
     "normalise_degrees",
     "cap_degrees",
     "holdout_fraction",
+    "kfold_labels",
+    "shuffle_holdout_labels",
     "MAX_DEGREE",
     "MAX_SEED",
 ]
