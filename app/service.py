@@ -14,12 +14,13 @@ Costs and caches (per dataset id):
   table, residuals and exports. Cached per (dataset, columns, split, degree); it is
   computed in its own callback, off the chart's critical path.
 
-The steady measure
-------------------
+The verdict
+-----------
 A single holdout of a small dataset is a noisy judge of degree. The recommendation
-and the overfitting warning therefore always come from 10-fold cross-validation,
-repeated 5 times when the data are small (grouped folds when a group column is
-chosen), whatever split the charts show.
+and the overfitting warning therefore always come from the engine's one rule,
+``fitting.verdict_sweep`` (10-fold cross-validation, repeated 5 times up to 5,000 rows;
+one group held out at a time with a group column; whole x levels held out when x has
+replicates), whatever split the charts show. ``degreescope sweep`` calls the same rule.
 """
 
 from __future__ import annotations
@@ -65,9 +66,6 @@ SAMPLE_PATH = Path(__file__).resolve().parent.parent / "sample_data" / "sensor_c
 MAX_POINTS = 20_000  # points drawn on the chart; fits always use every row
 GRID_POINTS = 400
 PAD = 0.06  # share of the x range drawn beyond the data on each side
-STEADY_FOLDS = 10
-STEADY_REPEATS_SMALL = 5  # repeated 10-fold CV below STEADY_SMALL_ROWS rows
-STEADY_SMALL_ROWS = 5_000
 MAX_PREDICT_VALUES = 1_000
 MAX_PREDICT_CHARS = 40 * MAX_PREDICT_VALUES  # checked before the text is split
 HOLDOUT_RANGE = (10, 50)  # per cent
@@ -243,8 +241,10 @@ class SplitView:
 
     @property
     def steady_label(self) -> str:
-        """What the recommendation rests on (the verdict sweep's scheme, or the grouped folds)."""
-        return text.verdict_label(self.steady.scheme, self.columns.group, self.steady.n_splits)
+        """What the recommendation rests on: the engine's rule sentence, naming the group column if any."""
+        if self.columns.group is not None or not self.steady.verdict_rule:
+            return text.verdict_label(self.steady.scheme, self.columns.group, self.steady.n_splits)
+        return self.steady.verdict_rule
 
     def verdict_test_rmse(self, degree: int) -> float:
         """The verdict sweep's test RMSE at ``degree`` (NaN when it failed there)."""
@@ -538,24 +538,17 @@ class FitService:
 
     # -- sweeps -------------------------------------------------------------------
     def steady_sweep(self, ds_id: str, cols: Columns) -> DegreeSweep:
-        """The verdict sweep: 10-fold CV (repeated 5 times up to 5,000 rows), or grouped folds."""
+        """The verdict sweep: the engine's one rule (``fitting.verdict_sweep``), shared with ``degreescope sweep``."""
 
         def make():
             sel = self.selection(ds_id, cols)
-            degrees = range(0, MAX_DEGREE + 1)
-            if sel.group is not None:
-                folds = np.asarray(sel.group)
-                return fitting.sweep_degrees(sel.x, sel.y, degrees=degrees, folds=folds, weights=sel.weights)
-            n = sel.rows_used
-            repeats = STEADY_REPEATS_SMALL if n <= STEADY_SMALL_ROWS else 1
-            return fitting.sweep_degrees(
-                sel.x, sel.y, degrees=degrees, folds=min(STEADY_FOLDS, n), repeats=repeats, seed=0, weights=sel.weights
-            )
+            return fitting.verdict_sweep(sel.x, sel.y, weights=sel.weights, groups=sel.group)
 
         return self._steady.get_or_make((ds_id, cols), make)
 
     def split_view(self, ds_id: str, cols: Columns, split: SplitSettings) -> SplitView:
         """The chosen split's sweep over degrees 0..MAX_DEGREE, the verdict sweep and the chart's points (cached)."""
+        self.store.get(ds_id)  # owner and eviction check before any cached view of this dataset
         return self._splits.get_or_make((ds_id, cols, split), lambda: self._make_split_view(ds_id, cols, split))
 
     def _chosen_sweep(self, sel: Selection, split: SplitSettings) -> DegreeSweep:

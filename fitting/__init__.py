@@ -13,6 +13,14 @@ Public surface (everything else is private and may change):
     weights_for(rule, x, y, *, rows=None) -> weights (inverse variances) or None
     weight_at(rule, x0, y_hat0) -> the weight of a new reading at x0
 
+    read_back(fit, y0, *, readings=1, level=0.95, weighting=None) -> ReadBack   # x0 from a reading, with
+                                                      # the calibration interval and u(x0)
+    monotonic_ranges(fit) -> CurveShape               # where the curve rises or falls
+    back_calculate(fit, x, y, *, tolerance=15.0, lowest_tolerance=20.0, lines=None) -> BackCalculation
+    compare_weightings(x, y, degree, *, rules=..., through_origin=False) -> WeightingComparison
+    ReadBack, ReadBackRow, CurveShape, BackCalculation, BackCalculatedStandard, BackCalculationSummary,
+    WeightingComparison, WeightingComparisonRow, CALIBRATION_CAUTION
+
     sweep_degrees(x, y, *, degrees=range(0, 13), folds=10, holdout=None, ordered=False,
                   repeats=1, seed=0, weights=None) -> DegreeSweep
     verdict_sweep(x, y, *, weights=None, groups=None, degrees=None, seed=0,
@@ -38,6 +46,21 @@ Errors raised on purpose derive from DegreescopeError:
 This package never imports the dashboard (``app``), dash or plotly.
 """
 
+from ._calibrate import (
+    CALIBRATION_CAUTION,
+    BackCalculatedStandard,
+    BackCalculation,
+    BackCalculationSummary,
+    CurveShape,
+    ReadBack,
+    ReadBackRow,
+    WeightingComparison,
+    WeightingComparisonRow,
+    back_calculate,
+    compare_weightings,
+    monotonic_ranges,
+    read_back,
+)
 from ._errors import ColumnError, DegreescopeError, FileTooLargeError, FitError, IntakeError, RankWarning
 from ._intake import DEFAULT_MAX_BYTES, MAX_COLUMNS, DropInfo, IntakeReport, Selection, Table, read_table, read_values
 from ._polyfit import PolynomialFit, fit_polynomial
@@ -48,6 +71,19 @@ from ._verdict import VERDICT_FOLDS, VERDICT_REPEAT_LIMIT, VERDICT_REPEATS, verd
 from ._weighting import WEIGHTINGS, weight_at, weights_for
 
 __all__ = [
+    "CALIBRATION_CAUTION",
+    "BackCalculatedStandard",
+    "BackCalculation",
+    "BackCalculationSummary",
+    "CurveShape",
+    "ReadBack",
+    "ReadBackRow",
+    "WeightingComparison",
+    "WeightingComparisonRow",
+    "back_calculate",
+    "compare_weightings",
+    "monotonic_ranges",
+    "read_back",
     "DEFAULT_MAX_BYTES",
     "MAX_COLUMNS",
     "MAX_DEGREE",
