@@ -24,10 +24,10 @@ This package never imports the dashboard (``app``), dash or plotly.
 """
 
 from ._errors import ColumnError, DegreescopeError, FileTooLargeError, FitError, IntakeError, RankWarning
-from ._intake import DEFAULT_MAX_BYTES, MAX_COLUMNS, DropInfo, IntakeReport, Selection, Table, read_table, read_values
 from ._polyfit import PolynomialFit, fit_polynomial
 from ._stream import fold_labels, holdout_mask, sweep_source
 from ._sweep import MAX_DEGREE, MAX_SEED, DegreeSweep, sweep_degrees
+from .intake import DEFAULT_MAX_BYTES, MAX_COLUMNS, DropInfo, IntakeReport, Selection, Table, read_table, read_values
 
 __all__ = [
     "DEFAULT_MAX_BYTES",
