@@ -198,11 +198,12 @@ from ._sources import (
     source_chunks,
 )
 from ._tokens import QuoteError
-from ._wording import echo
+from ._wording import ECHO_LIMIT, echo
 from ._workbook import WORKBOOK_SUFFIXES, read_workbook, workbook_kind
 
 __all__ = [
     "DEFAULT_MAX_BYTES",
+    "ECHO_LIMIT",
     "LISTED_LINES",
     "MAX_COLUMNS",
     "WORKBOOK_SUFFIXES",

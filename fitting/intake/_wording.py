@@ -70,9 +70,15 @@ def size_text(n: int) -> str:
 def size_pair(size: int, limit: int) -> tuple[str, str]:
     """Rounded sizes of a file and a limit, in exact bytes when rounding would make them read equal."""
     a, b = size_text(size), size_text(limit)
-    if a == b and size != limit:
+    if size != limit and _one_decimal(a) == _one_decimal(b):
         return f"{size:,} bytes", f"{limit:,} bytes"
     return a, b
+
+
+def _one_decimal(text: str) -> str:
+    """ "2 MiB" and "2.0 MiB" read the same: compare sizes with one decimal."""
+    number, unit = text.split(" ")
+    return f"{float(number):.1f} {unit}"
 
 
 def json_list(arr: np.ndarray) -> list:
