@@ -776,3 +776,15 @@ def test_dropped_lines_are_capped_with_the_full_count():
     assert info.count == n and len(info.listed_lines) == LISTED_LINES
     assert info.listed_lines[:3] == [2, 3, 4]
     assert not info.to_dict()["lines_complete"]
+
+
+def test_docstring_examples_run():
+    # the numpydoc Examples of the public intake functions (also: pytest --doctest-modules fitting/intake)
+    import doctest
+
+    import fitting.intake._assemble
+    import fitting.intake._results
+
+    for module in (fitting.intake, fitting.intake._results, fitting.intake._assemble):
+        result = doctest.testmod(module)
+        assert result.failed == 0 and result.attempted > 0, module.__name__

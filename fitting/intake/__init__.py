@@ -269,7 +269,7 @@ def read_table(
 
     Examples
     --------
-    >>> t = read_table(b"# bench run 4\nt (s);U (mV)\n0;1,5\n1;2,25\n2;n/a\n", name="run4.csv")
+    >>> t = read_table(b"# bench run 4\\nt (s);U (mV)\\n0;1,5\\n1;2,25\\n2;n/a\\n", name="run4.csv")
     >>> t.report.header_line, t.report.decimal, t.report.units
     (2, ',', {'t (s)': 's', 'U (mV)': 'mV'})
     >>> t.frame["U (mV)"].tolist()
@@ -302,7 +302,7 @@ def read_values(source, *, max_bytes: int = DEFAULT_MAX_BYTES, name: str | None 
 
     Examples
     --------
-    >>> t = read_values(b"x (mm)\n0,5\n1,25\n2\n")
+    >>> t = read_values(b"x (mm)\\n0.5\\n1.25\\n2\\n")
     >>> t.report.columns, t.frame["x (mm)"].tolist(), t.report.delimiter
     (['x (mm)'], [0.5, 1.25, 2.0], '')
     """
