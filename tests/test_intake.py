@@ -782,9 +782,12 @@ def test_docstring_examples_run():
     # the numpydoc Examples of the public intake functions (also: pytest --doctest-modules fitting/intake)
     import doctest
 
-    import fitting.intake._assemble
-    import fitting.intake._results
+    from fitting.intake import read_values
 
-    for module in (fitting.intake, fitting.intake._results, fitting.intake._assemble):
-        result = doctest.testmod(module)
-        assert result.failed == 0 and result.attempted > 0, module.__name__
+    runner = doctest.DocTestRunner()
+    for obj in (read_table, read_values, Table.select, unit_of):
+        tests = doctest.DocTestFinder().find(obj, globs=dict(vars(fitting.intake)))
+        assert tests and tests[0].examples, obj.__qualname__
+        for test in tests:
+            runner.run(test)
+    assert runner.summarize(verbose=False).failed == 0
