@@ -299,3 +299,27 @@ def test_the_ods_made_here_holds_formulas_and_a_merged_cell():
     content = zipfile.ZipFile(io.BytesIO(make_ods(sheet_rows(doubled_cached=True)))).read("content.xml").decode()
     assert content.count('table:formula="of:=[.B') == 6
     assert 'table:number-columns-spanned="2"' in content
+
+
+def test_one_column_sheet_reads_through_read_values():
+    openpyxl = pytest.importorskip("openpyxl")
+    from fitting import read_values
+
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.append(["x values to predict at (invented)"])
+    ws.append([])
+    ws.append(["x (mm)"])
+    for v in (0.5, 1.25, 2.0, "n/a", 3.5):
+        ws.append([v])
+    buf = io.BytesIO()
+    wb.save(buf)
+    t = read_values(buf.getvalue(), name="predict.xlsx")
+    csv = read_values(b"x values to predict at (invented)\n\nx (mm)\n0.5\n1.25\n2\nn/a\n3.5\n", name="predict.csv")
+    pd.testing.assert_frame_equal(t.frame, csv.frame, check_exact=True)
+    assert t.line_numbers.tolist() == csv.line_numbers.tolist() == [4, 5, 6, 7, 8]
+    assert t.report.columns == ["x (mm)"] and t.report.units == {"x (mm)": "mm"} and t.sheet == "Sheet"
+    with pytest.raises(IntakeError) as info:
+        read_table(buf.getvalue(), name="predict.xlsx")
+    assert "Sheet 'Sheet' of 'predict.xlsx' has only one column of values" in str(info.value)
+    assert "comma" not in str(info.value)

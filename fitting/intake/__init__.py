@@ -280,14 +280,17 @@ def read_table(
     return _read(source, max_bytes=max_bytes, name=name, sheet=sheet, fast=fast_path)
 
 
-def read_values(source, *, max_bytes: int = DEFAULT_MAX_BYTES, name: str | None = None) -> Table:
+def read_values(
+    source, *, max_bytes: int = DEFAULT_MAX_BYTES, name: str | None = None, sheet: str | int | None = None
+) -> Table:
     """Read a table that may hold a single column of numbers, such as x values to predict at.
 
     A file with two or more columns is read exactly as ``read_table`` reads it. A file
     with one column of values is read by the same rules (encodings, comment lines,
     header, decimal mark, missing markers, summary rows): every non-blank line gets a
     filler field after a ``;`` for the parse, and the filler column, always the last,
-    is removed again. The report then names no delimiter (``""``).
+    is removed again. The report then names no delimiter (``""``). A workbook sheet
+    with one column is read the same way (``sheet=`` as for ``read_table``).
 
     Parameters
     ----------
@@ -295,6 +298,8 @@ def read_values(source, *, max_bytes: int = DEFAULT_MAX_BYTES, name: str | None 
         As for ``read_table``.
     max_bytes : int, default=DEFAULT_MAX_BYTES (512 MiB)
     name : str, optional
+    sheet : str or int, optional
+        For a workbook, as for ``read_table``.
 
     Returns
     -------
@@ -307,14 +312,26 @@ def read_values(source, *, max_bytes: int = DEFAULT_MAX_BYTES, name: str | None 
     (['x (mm)'], [0.5, 1.25, 2.0], '')
     """
     try:
-        return read_table(source, max_bytes=max_bytes, name=name)
+        return read_table(source, max_bytes=max_bytes, name=name, sheet=sheet)
     except OneColumnError:
-        pass
+        first = None
+    except IntakeError as exc:  # a workbook's sheets report "no two numeric columns" instead
+        first = exc
     data, display = load(source, max_bytes, name)
-    text, label = decode(data, display)
-    del data
-    filled = "\n".join(ln if not ln.strip() else ln.rstrip("\r") + ";0" for ln in _lines(text).split("\n"))
-    table = _guarded(display, lambda: parse_text(filled, display, label, fast=True))
+    kind = workbook_kind(data, display)
+    if kind is None and first is not None:
+        raise first
+    try:
+        if kind is not None:
+            table = read_workbook(data, display, kind, sheet, _with_filler)
+        else:
+            text, label = decode(data, display)
+            del data
+            table = _guarded(display, lambda: _with_filler(text, display, label, fast=True))
+    except IntakeError:
+        if first is not None:
+            raise first from None
+        raise
     filler = table.report.columns[-1]
     report = replace(
         table.report,
@@ -324,6 +341,13 @@ def read_values(source, *, max_bytes: int = DEFAULT_MAX_BYTES, name: str | None 
         units={k: v for k, v in table.report.units.items() if k != filler},
     )
     return replace(table, frame=table.frame.drop(columns=[filler]), report=report)
+
+
+def _with_filler(text: str, display: str, encoding: str, *, fast: bool = True, delimiters=None, decimal=None) -> Table:
+    """``parse_text`` with a filler field after every non-blank line (";0", or a tab and 0 in a workbook)."""
+    mark = "\t" if delimiters == ("\t",) else ";"
+    filled = "\n".join(ln if not ln.strip() else ln + mark + "0" for ln in _lines(text).split("\n"))
+    return parse_text(filled, display, encoding, fast=fast, delimiters=delimiters, decimal=decimal)
 
 
 def _read(source, *, max_bytes: int, name: str | None, sheet, fast: bool) -> Table:

@@ -17,7 +17,7 @@ from xml.etree import ElementTree
 
 from .._errors import IntakeError
 from ._decode import binary_error, signature_of
-from ._dialect import decide_decimal
+from ._dialect import OneColumnError, decide_decimal
 from ._results import Table
 from ._wording import echo, echo_list, plural
 
@@ -136,7 +136,13 @@ def _read_sheet(wb, data: bytes, display: str, kind: str, name: str, names: list
     rows = wb.get_sheet_by_name(name).to_python(skip_empty_area=False)
     text, decimal = cells_to_text(rows)
     where = f"{display} [{name}]" if len(names) > 1 else display
-    table = parse_text(text, where, f"{kind} workbook", fast=True, delimiters=("\t",), decimal=decimal)
+    try:
+        table = parse_text(text, where, f"{kind} workbook", fast=True, delimiters=("\t",), decimal=decimal)
+    except OneColumnError:
+        raise OneColumnError(
+            f"Sheet {echo(name)} of {echo(display)} has only one column of values; a curve needs two "
+            f"numeric columns, so put x and y in separate columns."
+        ) from None
     notes = list(table.report.notes)
     if kind in ("xlsx", "xlsm"):
         missing = formulas_without_value(data, name)
