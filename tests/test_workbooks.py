@@ -323,3 +323,15 @@ def test_one_column_sheet_reads_through_read_values():
         read_table(buf.getvalue(), name="predict.xlsx")
     assert "Sheet 'Sheet' of 'predict.xlsx' has only one column of values" in str(info.value)
     assert "comma" not in str(info.value)
+
+
+def test_workbook_is_known_by_its_bytes_and_by_xlsm():
+    rows = sheet_rows(doubled_cached=False)
+    data = make_xlsx(rows)
+    by_name = read_table(data, name="bench.xlsx")
+    for name in ("bench.xlsm", None, "upload.bin"):
+        t = read_table(data, name=name)
+        pd.testing.assert_frame_equal(t.frame, by_name.frame, check_exact=True)
+        assert t.sheet == "Run 1"
+    ods = make_ods(sheet_rows(doubled_cached=True))
+    assert read_table(ods).report.encoding == "ods workbook"
