@@ -2,8 +2,9 @@
 
 Public surface (everything else is private and may change):
 
-    read_table(source, *, max_bytes=DEFAULT_MAX_BYTES, name=None) -> Table
-    read_values(source, *, max_bytes=DEFAULT_MAX_BYTES, name=None) -> Table   # one column allowed
+    read_table(source, *, max_bytes=DEFAULT_MAX_BYTES, name=None, sheet=None, fast_path=True) -> Table
+                                                      # CSV/text, .xlsx/.xlsm/.xls/.ods, bytes or a path
+    read_values(source, *, max_bytes=DEFAULT_MAX_BYTES, name=None, sheet=None) -> Table   # one column allowed
     Table, Selection, DropInfo, IntakeReport          # what intake returns (Table.select -> Selection)
     DEFAULT_MAX_BYTES, MAX_COLUMNS                    # intake limits
 
@@ -62,13 +63,13 @@ from ._calibrate import (
     read_back,
 )
 from ._errors import ColumnError, DegreescopeError, FileTooLargeError, FitError, IntakeError, RankWarning
-from ._intake import DEFAULT_MAX_BYTES, MAX_COLUMNS, DropInfo, IntakeReport, Selection, Table, read_table, read_values
 from ._polyfit import PolynomialFit, fit_polynomial
 from ._stream import fold_labels, holdout_mask, sweep_source
 from ._sweep import DegreeSweep, sweep_degrees
 from ._validate import MAX_DEGREE, MAX_SEED
 from ._verdict import VERDICT_FOLDS, VERDICT_REPEAT_LIMIT, VERDICT_REPEATS, verdict_rule_text, verdict_sweep
 from ._weighting import WEIGHTINGS, weight_at, weights_for
+from .intake import DEFAULT_MAX_BYTES, MAX_COLUMNS, DropInfo, IntakeReport, Selection, Table, read_table, read_values
 
 __all__ = [
     "CALIBRATION_CAUTION",
