@@ -64,6 +64,7 @@ groups. Every redraw deals the units to folds at random in equal shares (as KFol
 from __future__ import annotations
 
 import math
+import warnings
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -789,6 +790,20 @@ def _mini_block_redraws(t, y, w, units, folds, ncols, rng):
     return redraw, f"{count} mini-blocks of units reduced once, dealt to folds at each redraw", count
 
 
+def _carry_cap(x, n_units: int, held_out: str, folds: int) -> tuple[int, str]:
+    """The highest degree every training set carries (distinct x - 1), and why, where it can be known in advance.
+
+    Held-out x levels and distinct-valued rows leave at least units - ceil(units / folds) distinct x values
+    in training; otherwise the cap is the full data's, and a degree that a training set cannot carry is
+    reported as failed by ``sweep_from_blocks`` for that redraw.
+    """
+    m = int(np.unique(x).size)
+    if held_out == "x levels" or (held_out == "rows" and m == x.size):
+        left = n_units - math.ceil(n_units / folds)
+        return max(left - 1, 0), f"the smallest training set has {left} distinct x values"
+    return m - 1, f"the data have {m} distinct x values"
+
+
 def _redraw_setup(x, y, w, units, folds, degs, rng):
     """(redraw function, method, mini-block count or None, keyword arguments for sweep_from_blocks)."""
     ncols = degs[-1] + 1
@@ -850,10 +865,10 @@ def verdict_stability(
     if folds > n_units:
         raise FitError(f"Cannot make {folds} folds from {n_units} {held_out}; use at most {n_units} folds.")
     degs, notes = normalise_degrees(VERDICT_DEGREES if degrees is None else degrees)
-    m = np.unique(x).size
-    if degs[-1] > m - 1:
-        notes.append(f"Degrees above {m - 1} were left out: the data have {m} distinct x values.")
-        degs = [d for d in degs if d <= m - 1] or [m - 1]
+    cap, why = _carry_cap(x, n_units, held_out, folds)
+    if degs[-1] > cap:
+        notes.append(f"Degrees above {cap} were left out: {why}.")
+        degs = [d for d in degs if d <= cap] or [cap]
     rng = np.random.default_rng(seed)
     counts = np.zeros(len(degs), dtype=np.int64)
     with single_thread_blas():
@@ -862,7 +877,9 @@ def verdict_stability(
         no_display = Block(r=np.zeros((degs[-1] + 2, degs[-1] + 2)), n=0, wsum=0.0, wysum=0.0)
         for _ in range(draws):
             parts = [(redraw(rng), splits) for _ in range(repeats)]
-            verdict = sweep_from_blocks(parts, degs, display_block=no_display, **common).recommended_degree
+            with warnings.catch_warnings():  # a degree that fails in a split is reported by the sweep, not warned
+                warnings.simplefilter("ignore", RuntimeWarning)
+                verdict = sweep_from_blocks(parts, degs, display_block=no_display, **common).recommended_degree
             counts[degs.index(verdict)] += 1
     d = np.asarray(degs, dtype=np.int64)
     imax = int(np.argmax(counts))
