@@ -73,7 +73,7 @@ from scipy.special import fdtrc, fdtri, stdtrit
 
 from . import _basis
 from ._errors import FitError
-from ._polyfit import single_thread_blas, validate_xyw
+from ._polyfit import PolynomialFit, single_thread_blas, validate_xyw
 from ._sweep import MAX_SEED, Block, Split, block_factor, normalise_degrees, sweep_from_blocks
 
 __all__ = [
@@ -619,13 +619,19 @@ def _influence_measures(x, y, w, degree: int):
     return h, t, cook, dffits
 
 
-def influence(x, y, degree: int, *, weights=None, lines=None) -> Influence:
+def influence(x, y, degree: int | PolynomialFit, *, weights=None, lines=None) -> Influence:
     """Influence of every row on the degree-``degree`` fit, each measure flagged against a stated threshold.
 
-    ``lines`` names the rows in messages and output (for example their line numbers in the input file);
-    default 1..n. With weights, the measures are those of the weighted fit (of sqrt(w)·y on sqrt(w)·A).
+    ``degree`` is a whole number or a PolynomialFit of these rows (its degree is used; the measures are
+    computed afresh from the rows). ``lines`` names the rows in the output (for example their line numbers
+    in the input file); default 1..n. With weights, the measures are those of the weighted fit (of
+    sqrt(w)·y on sqrt(w)·A).
     """
     x, y, w = validate_xyw(x, y, weights)
+    if isinstance(degree, PolynomialFit):
+        if degree.through_origin:
+            raise FitError("Influence measures are computed for fits with a constant term, not through the origin.")
+        degree = degree.degree
     degree = int(degree)
     n, p = x.size, degree + 1
     if degree < 0 or np.unique(x).size < p:

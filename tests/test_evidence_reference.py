@@ -33,6 +33,7 @@ from scipy import stats
 from statsmodels.stats.anova import anova_lm
 from statsmodels.stats.outliers_influence import OLSInfluence
 
+from fitting import fit_polynomial
 from fitting._evidence import degree_evidence, evidence_sentence, influence, mandel_test
 
 
@@ -221,9 +222,10 @@ def test_sentences_tie_the_table_to_the_verdict():
         evidence_sentence(ev, 7)
 
 
-@pytest.mark.parametrize("case", ["pontius", "near-line"])
+@pytest.mark.parametrize("case", ["pontius", "near-line", "weighted"])
 def test_mandel_pg_matches_two_statsmodels_fits(case):
-    # source: ISO 8466-1 formula [memory] recomputed from statsmodels OLS mse_resid; scipy F quantile and tail
+    # source: ISO 8466-1 formula [memory] recomputed from statsmodels OLS / WLS mse_resid; scipy F quantile and tail
+    w = None
     if case == "pontius":
         c = load("Pontius")
         x, y = c.x, c.y
@@ -231,11 +233,18 @@ def test_mandel_pg_matches_two_statsmodels_fits(case):
         rng = np.random.default_rng(11)
         x = np.linspace(1, 10, 10)
         y = 0.2 + 0.8 * x + rng.normal(0, 0.05, x.size)
+        w = 1.0 / x if case == "weighted" else None
     n = x.size
-    s1 = sm.OLS(y, np.vander(x / x.max(), 2, increasing=True)).fit().mse_resid
-    s2 = sm.OLS(y, np.vander(x / x.max(), 3, increasing=True)).fit().mse_resid
+
+    def mse(k):
+        X = np.vander(x / x.max(), k, increasing=True)
+        return (sm.OLS(y, X) if w is None else sm.WLS(y, X, weights=w)).fit().mse_resid
+
+    s1, s2 = mse(2), mse(3)
     pg = ((n - 2) * s1 - (n - 3) * s2) / s2
-    r = mandel_test(x, y)
+    r = mandel_test(x, y, weights=w)
+    # PG is the added-term F of degree 2 (both are (RSS_1 - RSS_2) / s2²)
+    assert r.pg == pytest.approx(degree_evidence(x, y, [2], weights=w).added_term_f[0], rel=1e-12)
     assert r.s1_squared == pytest.approx(s1, rel=1e-9) and r.s2_squared == pytest.approx(s2, rel=1e-9)
     assert r.pg == pytest.approx(pg, rel=1e-6)
     assert r.critical_value == pytest.approx(stats.f.ppf(0.99, 1, n - 3), rel=1e-10)
@@ -278,7 +287,7 @@ def test_influence_matches_statsmodels_olsinfluence(weighted):
 def test_influence_thresholds_flags_and_verdicts():
     # thresholds: scipy.stats t (Bonferroni, 5 % two-sided, n - p - 1 df) and F(p, n - p) median
     x, y = _influence_case()
-    got = influence(x, y, 2, lines=np.arange(2, 16))
+    got = influence(x, y, fit_polynomial(x, y, 2), lines=np.arange(2, 16))
     n, p = 14, 3
     th = got.thresholds
     assert th["leverage"]["value"] == pytest.approx(3 * p / n)  # n < 30: 3p/n
