@@ -390,9 +390,9 @@ def _sentence_with_replicates(ev: DegreeEvidence, rec: int) -> str:
         )
     if rec > low:
         return (
-            f"Degree {rec} is the cross-validated choice: it lowers the cross-validated error by more than its "
-            f"standard error, but lack of fit is already absent at degree {low} ({_fmt_p(p_low)}), so the replicates "
-            "cannot tell the two apart."
+            f"Degree {rec} is the cross-validated choice: cross-validation finds the terms above degree {low} worth "
+            f"their variance, but lack of fit is already absent at degree {low} ({_fmt_p(p_low)}), so the replicates "
+            "do not show the bend those terms fit."
         )
     where = f"({_fmt_p(p_rec)})" if math.isfinite(p_rec) else "(not testable there)"
     return (
