@@ -165,6 +165,11 @@ def _pure_error(y: np.ndarray, w: np.ndarray | None, labels: np.ndarray, m: int)
     return float(np.sum(ww * dev * dev))
 
 
+def _rounding_floor(total_ss: float, n: int) -> float:
+    """A residual sum of squares at or below this is rounding error of a fit to data with sum of squares total_ss."""
+    return (n * np.finfo(np.float64).eps) ** 2 * total_ss
+
+
 def _nested_rss(x, y, w, top: int) -> np.ndarray:
     """RSS of every degree 0..top from one QR of [A | y] (NaN where the design is rank deficient)."""
     offset, scale = _basis.domain_map(float(x.min()), float(x.max()))
@@ -176,6 +181,7 @@ def _nested_rss(x, y, w, top: int) -> np.ndarray:
         r = block_factor(t, yc, ncols, w).r
     col = r[:, ncols] ** 2
     rss = np.array([float(np.sum(col[d + 1 :])) for d in range(ncols)])
+    rss[rss <= _rounding_floor(float(np.sum(col)), x.size)] = 0.0  # an exact fit leaves only rounding: call it 0
     dg = np.abs(np.diag(r))[:ncols]
     eps = np.finfo(np.float64).eps
     for d in range(ncols):
@@ -606,6 +612,9 @@ def _influence_measures(x, y, w, degree: int):
     e = ys - q @ (q.T @ ys)  # weighted residuals sqrt(w)·(y − ŷ)
     h = np.einsum("ij,ij->i", q, q)
     rss = float(e @ e)
+    if rss <= _rounding_floor(float(ys @ ys), n):  # an exact fit: residual measures would be rounding noise
+        nan = np.full(n, np.nan)
+        return h, nan, nan.copy(), nan.copy()
     with np.errstate(divide="ignore", invalid="ignore"):
         one_h = 1.0 - h
         s2 = rss / (n - p) if n > p else float("nan")
