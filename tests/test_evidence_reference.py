@@ -314,3 +314,14 @@ def test_leverage_alone_is_review_never_outlier():
     assert last["flags"] == ["leverage"]
     assert last["verdict"] == "review"
     assert got.flagged == [13]
+
+
+def test_an_exact_fit_reads_no_test_or_flag_from_rounding():
+    # source: exact arithmetic; y = 2x + 1 on integers is a line with zero residuals
+    x = np.arange(6.0)
+    y = 2.0 * x + 1.0
+    ev = degree_evidence(x, y, [0, 1, 2])
+    assert ev.rss[1] == 0.0 and ev.rss[2] == 0.0
+    assert ev.to_dict()["added_term_p"][2] is None
+    inf = influence(x, y, 1)
+    assert inf.flagged == [] and inf.to_dict()["rows"][0]["studentized_residual"] is None
