@@ -49,7 +49,7 @@ groups. Every redraw deals the units to folds at random in equal shares (as KFol
 * Above it, the rows are reduced once: the units are shuffled once into ``MINI_BLOCKS``
   mini-blocks (a multiple of the fold count), each reduced to its (P + 1) x (P + 1) factor. A
   redraw deals mini-blocks to folds and merges their factors (``Block.merge``, TSQR); it touches
-  no rows: 200 redraws at 10^5 rows cost about 20-27 sweeps (benchmarks/bench_stability.py, 2 loaded
+  no rows: 200 redraws at 10^5 rows cost about 20-28 sweeps (benchmarks/bench_stability.py, 2 loaded
   cores), most of it in ``sweep_from_blocks`` itself. Each redraw is, on its own, a uniformly random
   equal-share partition of the units (a random partition into mini-blocks dealt at random is one);
   redraws are not independent of each other, because units that share a mini-block stay together
