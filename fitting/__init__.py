@@ -22,6 +22,16 @@ Public surface (everything else is private and may change):
     ReadBack, ReadBackRow, CurveShape, BackCalculation, BackCalculatedStandard, BackCalculationSummary,
     WeightingComparison, WeightingComparisonRow, CALIBRATION_CAUTION
 
+    degree_evidence(x, y, degrees=range(0, 21), *, weights=None, replicate_tolerance=0.0) -> DegreeEvidence
+                                                      # lack of fit, added-term F, AIC/BIC per degree
+    evidence_sentence(evidence, recommended_degree) -> str
+    mandel_test(x, y, *, weights=None) -> MandelResult   # line against quadratic (ISO 8466-1)
+    influence(x, y, degree_or_fit, *, weights=None, lines=None) -> Influence
+    verdict_stability(x, y, *, draws=200, seed=0, weights=None, groups=None, degrees=None, folds=10)
+                                                      -> VerdictStability   # share of redraws per degree
+    replicate_levels(x, tolerance=0.0)                # x levels, replicates pooled
+    DegreeEvidence, MandelResult, Influence, VerdictStability
+
     sweep_degrees(x, y, *, degrees=range(0, 13), folds=10, holdout=None, ordered=False,
                   repeats=1, seed=0, weights=None) -> DegreeSweep
     verdict_sweep(x, y, *, weights=None, groups=None, degrees=None, seed=0,
@@ -63,6 +73,18 @@ from ._calibrate import (
     read_back,
 )
 from ._errors import ColumnError, DegreescopeError, FileTooLargeError, FitError, IntakeError, RankWarning
+from ._evidence import (
+    DegreeEvidence,
+    Influence,
+    MandelResult,
+    VerdictStability,
+    degree_evidence,
+    evidence_sentence,
+    influence,
+    mandel_test,
+    replicate_levels,
+    verdict_stability,
+)
 from ._polyfit import PolynomialFit, fit_polynomial
 from ._stream import fold_labels, holdout_mask, sweep_source
 from ._sweep import DegreeSweep, sweep_degrees
@@ -72,6 +94,16 @@ from ._weighting import WEIGHTINGS, weight_at, weights_for
 from .intake import DEFAULT_MAX_BYTES, MAX_COLUMNS, DropInfo, IntakeReport, Selection, Table, read_table, read_values
 
 __all__ = [
+    "DegreeEvidence",
+    "Influence",
+    "MandelResult",
+    "VerdictStability",
+    "degree_evidence",
+    "evidence_sentence",
+    "influence",
+    "mandel_test",
+    "replicate_levels",
+    "verdict_stability",
     "CALIBRATION_CAUTION",
     "BackCalculatedStandard",
     "BackCalculation",
