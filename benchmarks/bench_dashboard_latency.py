@@ -82,7 +82,7 @@ def naive_app(path: Path):
 
     import fitting
 
-    sel = fitting._intake.read_table(path).select()  # noqa: SLF001 - benchmark only
+    sel = fitting.read_table(path).select()
     x, y = sel.x, sel.y
     app = dash.Dash(__name__ + ".naive")
     app.layout = html.Div(

@@ -16,8 +16,7 @@ import time
 import numpy as np
 from _common import blas_limit, environment
 
-from fitting import sweep_degrees
-from fitting._evidence import verdict_stability
+from fitting import sweep_degrees, verdict_stability
 
 
 def invented_data(n: int, seed: int = 0):

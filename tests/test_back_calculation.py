@@ -23,8 +23,7 @@ import statsmodels.api as sm
 from scipy import stats
 from scipy.optimize import brentq
 
-from fitting import FitError, fit_polynomial
-from fitting._calibrate import back_calculate, compare_weightings, read_back
+from fitting import FitError, back_calculate, compare_weightings, fit_polynomial, read_back
 from fitting._weighting import WEIGHTINGS, weights_for
 
 LEVELS = np.array([1.0, 2.0, 5.0, 10.0, 20.0, 50.0, 100.0, 200.0])

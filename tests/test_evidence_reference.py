@@ -33,8 +33,7 @@ from scipy import stats
 from statsmodels.stats.anova import anova_lm
 from statsmodels.stats.outliers_influence import OLSInfluence
 
-from fitting import fit_polynomial
-from fitting._evidence import degree_evidence, evidence_sentence, influence, mandel_test
+from fitting import degree_evidence, evidence_sentence, fit_polynomial, influence, mandel_test
 
 
 def _fr(v) -> Fraction:
