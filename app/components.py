@@ -95,3 +95,79 @@ def prediction_table(p: PredictionView) -> html.Table | html.Div:
     if shown == p.x.size:
         return table
     return html.Div([table, html.P(text.predictions_shown(shown, p.x.size), className="muted small")])
+
+
+# ----------------------------------------------------------------------------
+# calibration: the read-back table, the standards table and the weighting comparison
+
+READBACK_ROWS_SHOWN = 50  # readings listed on the page; the chart marks the first few
+
+
+def _notes_cell(notes) -> html.Td:
+    return html.Td([html.Div(n) for n in notes], className="cal-notes") if notes else html.Td("")
+
+
+def readback_table(result, domain: tuple[float, float]) -> html.Div:
+    """x, its calibration interval and u(x) per reading, every warning in words, and the curve's own notes."""
+    shown = min(len(result.rows), READBACK_ROWS_SHOWN)
+    rows = []
+    for r in result.rows[:shown]:
+        single = len(r.roots) == 1
+        interval = text.readback_interval(r.x_lower, r.x_upper, result.level, domain) if single else "—"
+        cells = [
+            _num_cell(fmt_number(r.y, 8)),
+            _num_cell(str(r.readings)),
+            _num_cell(fmt_number(r.x, 8)),
+            _num_cell(interval),
+            _num_cell(fmt_number(r.u_x, 4)),
+            _notes_cell(r.warnings),
+        ]
+        rows.append(html.Tr(cells, className="" if single and not r.warnings else "cal-warn"))
+    head = list(text.READBACK_HEAD)
+    head[3] = text.readback_interval_head(result.level)
+    parts: list = [_table(tuple(head), rows, "table cal-table")]
+    if shown < len(result.rows):
+        parts.append(html.P(text.readbacks_shown(shown, len(result.rows)), className="muted small"))
+    parts.extend(html.P(w, className="cal-warning") for w in result.warnings)
+    return html.Div(parts)
+
+
+def _verdict_cell(ok) -> html.Td:
+    if ok is None:
+        return html.Td(text.NOT_JUDGED, className="muted")
+    return html.Td(text.PASS if ok else text.FAIL, className="cal-pass" if ok else "cal-fail")
+
+
+def standards_table(back) -> html.Table:
+    """Each standard: line, x, y, x back, relative error %, pass/fail and the note."""
+    rows = [
+        html.Tr(
+            [
+                _num_cell("" if r.line is None else str(r.line)),
+                _num_cell(fmt_number(r.x, 6)),
+                _num_cell(fmt_number(r.y, 6)),
+                _num_cell(fmt_number(r.x_back, 6)),
+                _num_cell(fmt_number(r.relative_error_percent, 3)),
+                _verdict_cell(r.within_tolerance),
+                html.Td(r.note or "", className="cal-notes"),
+            ],
+            className="cal-warn" if r.within_tolerance is False else "",
+        )
+        for r in back.rows
+    ]
+    return _table(text.STANDARDS_HEAD, rows, "table cal-table")
+
+
+def weighting_table(comparison, chosen: str) -> html.Table:
+    """The named weightings ranked by Σ|error %|; the one in use is marked."""
+    rows = []
+    for r in comparison.rows:
+        label = r.label + (" (in use)" if r.weighting == chosen else "")
+        cells = [
+            _num_cell("—" if r.rank is None else str(r.rank)),
+            html.Td(label),
+            _num_cell(fmt_number(r.sum_abs_relative_error_percent, 4)),
+            html.Td(r.note or "", className="cal-notes"),
+        ]
+        rows.append(html.Tr(cells, className="cal-best" if r.weighting == comparison.best else ""))
+    return _table(text.WEIGHTING_HEAD, rows, "table cal-table")

@@ -198,6 +198,13 @@ SCHEMA: dict[tuple[str, str], Kind] = {
             ids.ERROR_SVG,
         )
     },
+    # -- calibration: the read-back panel and the standards panel --
+    (ids.READBACK_INPUT, "value"): optional(TEXT),
+    (ids.READBACK_COUNT, "value"): optional(NUMBER),  # whole-number check in the panel, with a message
+    (ids.READBACK_LEVEL, "value"): optional(NUMBER),
+    (ids.WEIGHTING, "value"): optional(TEXT),
+    (ids.TOLERANCE, "value"): optional(NUMBER),
+    (ids.LOWEST_TOLERANCE, "value"): optional(NUMBER),
 }
 
 

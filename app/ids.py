@@ -82,3 +82,19 @@ HOLDOUT_BOX = "holdout-box"
 FOLDS_BOX = "folds-box"
 UPLOAD_BOX = "upload-box"  # carries data-limit for assets/degreescope.js
 DEGREE_SETTLED = "degree-settled"  # dcc.Store: the degree once it has rested (clientside debounce)
+
+# -- calibration: the read-back panel and the standards panel (app/panels/readback.py, standards.py) --------
+READBACK_INPUT = "readback-input"
+READBACK_COUNT = "readback-count"  # k, readings averaged per unknown
+READBACK_LEVEL = "readback-level"  # interval level in per cent
+READBACK_RESULT = "readback-result"
+READBACK_NOTE = "readback-note"
+READBACK_MARKS = "readback-marks"  # dcc.Store: shapes for the fit chart (merged by a clientside Patch)
+WEIGHTING = "weighting"  # named weighting of the calibration fit
+TOLERANCE = "tolerance"
+LOWEST_TOLERANCE = "lowest-tolerance"
+STANDARDS_SUMMARY = "standards-summary"
+STANDARDS_TABLE = "standards-table"
+WEIGHTING_TABLE = "weighting-table"
+STANDARDS_NOTE = "standards-note"
+STANDARDS_MARKS = "standards-marks"  # dcc.Store: the marker trace of failing standards

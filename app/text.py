@@ -181,3 +181,134 @@ def predictions_shown(shown: int, total: int) -> str:
 
 def sample_note(shown: int, rows: int) -> str:
     return f"showing a random sample of {fmt_count(shown)} of {fmt_count(rows)} points; fits use every row"
+
+
+# ----------------------------------------------------------------------------
+# calibration: the read-back panel and the standards panel (app/panels/readback.py, standards.py)
+
+READBACK_TITLE = "From a reading to x"
+READBACK_INPUT_LABEL = "Readings y (commas, spaces or new lines; the mean of k readings each)"
+READBACK_PLACEHOLDER = "e.g. 12.5, 40"
+READBACK_COUNT_LABEL = "k (readings per unknown)"
+READBACK_LEVEL_LABEL = "Interval level (%)"
+READBACK_EMPTY = "Type one or more readings to read them back to x."
+READBACK_HEAD = ("reading y", "k", "x", "calibration interval", "u(x)", "notes")
+STANDARDS_TITLE = "Standards read back"
+WEIGHTING_LABEL = "Weighting of the fit"
+TOLERANCE_LABEL = "Tolerance (±%)"
+LOWEST_TOLERANCE_LABEL = "At the lowest level (±%)"
+STANDARDS_HEAD = ("line", "x", "y", "x back", "error %", "result", "note")
+WEIGHTING_HEAD = ("rank", "weighting", "Σ |error %|", "note")
+STANDARDS_SOURCE = (
+    "Defaults: ±15 %, ±20 % at the lowest level; at least 75 % of the standards and 6 levels must pass "
+    "(FDA 2018 Bioanalytical Method Validation guidance and ICH M10, chromatographic assays). "
+    "Other fields use other limits: set yours."
+)
+WEIGHTING_SOURCE = (
+    "Each weighting is fitted at this degree and ranked by the sum of |error %| of the standards read back "
+    "(smallest first), the criterion of Almeida, Castel-Branco and Falcão, J. Chromatogr. B 774 (2002) 215."
+)
+PASS, FAIL, NOT_JUDGED = "pass", "fail", "not judged"
+FAILING_MARK_NAME = "standard outside tolerance"
+READING_MARK_NAME = "reading"
+
+
+def calibration_fitted(rows: int, degree: int, weighting: str) -> str:
+    """Which fit the calibration panels read through."""
+    return (
+        f"Read through the degree {degree} fit on every one of the {fmt_count(rows)} usable rows "
+        f"(weighting: {weighting})."
+    )
+
+
+def readback_interval(lo, hi, level: float, domain: tuple[float, float]) -> str:
+    """ "lo … hi", an unbounded end written as "below lo" or "above hi" of the calibrated range."""
+    a = fmt_number(lo, 6) if lo is not None else f"< {fmt_number(domain[0], 6)}"
+    b = fmt_number(hi, 6) if hi is not None else f"> {fmt_number(domain[1], 6)}"
+    return f"{a} … {b}"
+
+
+def readback_interval_head(level: float) -> str:
+    return f"{level * 100:g} % calibration interval"
+
+
+def readbacks_shown(shown: int, total: int) -> str:
+    return f"Showing the first {shown} of {total} readings; the chart marks the first {min(shown, 10)}."
+
+
+def too_many_readings(limit: int, chars: int | None = None, max_chars: int | None = None) -> str:
+    if chars is not None:
+        return f"Type at most {limit} readings at a time (this text has {chars:,} characters; {max_chars:,} at most)."
+    return f"Type at most {limit} readings at a time."
+
+
+def not_a_reading(token: str, want: str, example: str) -> str:
+    return f"{echo(token)} is not {want}; type readings like {example}."
+
+
+def bad_count(value) -> str:
+    return f"k, the number of readings averaged per unknown, must be a whole number from 1 to 1000, not {echo(value)}."
+
+
+def bad_level(value) -> str:
+    return f"The interval level must be a number from 50 to 99.9 (per cent), not {echo(value)}."
+
+
+def bad_tolerance(what: str, value) -> str:
+    return f"The {what} must be a number above 0 and at most 100 (per cent), not {echo(value)}."
+
+
+def weights_and_rule(column: str, rule: str) -> str:
+    return (
+        f"The weights column {column!r} is chosen, so the named weighting {rule} cannot be used as well; "
+        "choose the weighting “none” here, or clear the weights column."
+    )
+
+
+def too_many_standards(rows: int, limit: int) -> str:
+    return (
+        f"Reading every standard back is for calibration data: these columns have {fmt_count(rows)} rows, "
+        f"{fmt_count(limit)} at most."
+    )
+
+
+def standards_summary(s) -> str:
+    """The acceptance summary: share and number of levels passing, against the minimums."""
+    share = "—" if s.standards == 0 else f"{s.share_passing_percent:.0f} %"
+    verdict = (
+        "Both minimums are met."
+        if s.accepted
+        else "Not accepted: "
+        + "; ".join(
+            part
+            for part, met in (
+                (f"fewer than {s.min_share_percent:g} % of the standards pass", s.share_met),
+                (f"fewer than {s.min_levels} levels pass", s.levels_met),
+            )
+            if not met
+        )
+        + "."
+    )
+    return (
+        f"{s.standards_passing} of {s.standards} standards pass ({share}); "
+        f"{s.levels_passing} of {s.levels} levels pass. {verdict}"
+    )
+
+
+def weighting_best(best: str | None, label: str | None) -> str:
+    if best is None:
+        return "No weighting could be ranked on these data."
+    return f"Smallest sum: {label}."
+
+
+def weighting_column_note(column: str) -> str:
+    return f"The comparison uses the named weightings only; the weights column {column!r} is not part of it."
+
+
+def unknown_weighting(value, names: tuple[str, ...]) -> str:
+    return f"Unknown weighting {echo(value)}; choose one of {', '.join(names)}."
+
+
+TOLERANCE_WHAT = "tolerance"
+LOWEST_TOLERANCE_WHAT = "tolerance at the lowest level"
+WEIGHTING_COMPARISON_TITLE = "Which weighting reads the standards back best"

@@ -19,3 +19,8 @@ from ._common import INTERNAL_ERROR, PageConfig, degree_marks, panel, user_messa
 __all__ = ["INTERNAL_ERROR", "PANELS", "PageConfig", "degree_marks", "panel", "user_message"]
 
 PANELS = (data, split, caution, degree, charts, model, predict, downloads)
+
+# -- calibration: the read-back panel beside the prediction panel, the standards panel after the model card --
+from . import readback, standards  # noqa: E402
+
+PANELS = PANELS[: PANELS.index(predict) + 1] + (readback,) + PANELS[PANELS.index(predict) + 1 :] + (standards,)

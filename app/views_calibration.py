@@ -1,0 +1,323 @@
+"""Calibration views for the dashboard: unknowns read back, standards read back, weightings compared.
+
+Plain functions of the ``FitService`` and the page's settings; the panels
+(``app/panels/readback.py``, ``app/panels/standards.py``) turn their results into HTML.
+
+The fit read through is the model a user takes away at the degree on screen: the precise fit
+(``fitting.fit_polynomial``) on every usable row of the chosen columns, whatever split the
+charts show, with the named weighting the user picked (or the weights column). It is cached
+per (service, dataset, columns, degree, weighting). The engine does the work:
+``fitting.read_back`` (NIST/SEMATECH e-Handbook 4.5.2.1 calibration interval, u(x0) by the
+delta method), ``fitting.back_calculate`` (FDA 2018 / ICH M10 acceptance by default) and
+``fitting.compare_weightings`` (Almeida et al. 2002).
+"""
+
+from __future__ import annotations
+
+import math
+import re
+import threading
+import weakref
+from collections import OrderedDict
+from dataclasses import dataclass
+
+import numpy as np
+
+import fitting
+from fitting import BackCalculation, FitError, PolynomialFit, ReadBack, WeightingComparison
+
+from . import text
+from .service import Columns, FitService, SplitSettings, clamp_degree
+
+__all__ = [
+    "CalibrationModel",
+    "LEVEL_DEFAULT",
+    "MAX_READINGS",
+    "MAX_STANDARDS",
+    "MARKED_READINGS",
+    "READINGS_OWNER",
+    "STANDARDS_OWNER",
+    "back_calculation",
+    "calibration_fit",
+    "check_level",
+    "check_readings_count",
+    "check_tolerance",
+    "check_weighting_choice",
+    "failing_marks",
+    "parse_readings",
+    "read_back",
+    "reading_marks",
+    "weighting_comparison",
+]
+
+MAX_READINGS = 200  # readings read back at once
+MAX_READING_CHARS = 40 * MAX_READINGS  # checked before the text is split
+MAX_STANDARDS = 5_000  # rows read back one by one in the standards table
+MARKED_READINGS = 10  # readings drawn on the fit chart
+LEVEL_DEFAULT = 95.0  # per cent
+LEVEL_RANGE = (50.0, 99.9)
+READINGS_RANGE = (1, 1000)
+READINGS_OWNER = "degreescope-readback"  # name prefix of the shapes the read-back panel puts on the fit chart
+STANDARDS_OWNER = "degreescope-standards"  # meta owner of the marker trace of failing standards
+READING_COLOUR = "#d9730d"
+INTERVAL_FILL = "rgba(217, 115, 13, 0.16)"
+FAIL_COLOUR = "#b8002e"
+
+
+# ----------------------------------------------------------------------------
+# typed values, checked at the edge
+
+
+def _number(value) -> float | None:
+    if isinstance(value, bool) or value is None:
+        return None
+    try:
+        v = float(value)
+    except (TypeError, ValueError, OverflowError):
+        return None
+    return v if math.isfinite(v) else None
+
+
+def parse_readings(text_in: str | None, decimal: str = ".") -> np.ndarray:
+    """Readings typed by the user, with the rules of the prediction box.
+
+    The length is checked before the text is split. With the decimal point, commas, semicolons,
+    spaces and new lines separate values; with the decimal comma (a file written that way),
+    "12,5" is one value and only semicolons, spaces and new lines separate.
+    """
+    if not text_in or not str(text_in).strip():
+        return np.empty(0)
+    if len(text_in) > MAX_READING_CHARS:
+        raise FitError(text.too_many_readings(MAX_READINGS, len(text_in), MAX_READING_CHARS))
+    comma = decimal == ","
+    parts = [p for p in re.split(r"[\s;]+" if comma else r"[\s;,]+", text_in.strip()) if p]
+    if len(parts) > MAX_READINGS:
+        raise FitError(text.too_many_readings(MAX_READINGS))
+    example = "12,5; 40" if comma else "12.5, 40"
+    out = []
+    for p in parts:
+        token = p.replace(",", ".") if comma else p
+        v = _number(token)
+        if v is None:
+            raise FitError(text.not_a_reading(p, _wanted(token), example))
+        out.append(v)
+    return np.asarray(out, dtype=float)
+
+
+def _wanted(token: str) -> str:
+    try:
+        float(token)
+    except ValueError:
+        return "a number"
+    return "a finite number"
+
+
+def check_readings_count(value) -> int:
+    """k, the readings averaged per unknown: a whole number from 1 to 1000 (empty: 1)."""
+    if value is None or value == "":
+        return 1
+    v = _number(value)
+    if v is None or v != int(v) or not READINGS_RANGE[0] <= v <= READINGS_RANGE[1]:
+        raise FitError(text.bad_count(value))
+    return int(v)
+
+
+def check_level(value) -> float:
+    """The interval level typed in per cent (empty: 95), as a fraction."""
+    if value is None or value == "":
+        return LEVEL_DEFAULT / 100.0
+    v = _number(value)
+    if v is None or not LEVEL_RANGE[0] <= v <= LEVEL_RANGE[1]:
+        raise FitError(text.bad_level(value))
+    return v / 100.0
+
+
+def check_tolerance(value, default: float, what: str) -> float:
+    """A tolerance in per cent: above 0 and at most 100 (empty: ``default``)."""
+    if value is None or value == "":
+        return float(default)
+    v = _number(value)
+    if v is None or not 0.0 < v <= 100.0:
+        raise FitError(text.bad_tolerance(what, value))
+    return v
+
+
+def check_weighting_choice(value) -> str:
+    """The canonical name of a named weighting (empty: "none"); FitError for an unknown one."""
+    rule = value or "none"
+    if rule not in fitting.WEIGHTINGS:
+        raise FitError(text.unknown_weighting(rule, tuple(fitting.WEIGHTINGS)))
+    return str(rule)
+
+
+# ----------------------------------------------------------------------------
+# the fit read through (every usable row, the weighting chosen), cached per service
+
+
+@dataclass(frozen=True, eq=False)
+class CalibrationModel:
+    """The precise fit the calibration panels read through, and the standards it was fitted on."""
+
+    fit: PolynomialFit
+    weighting: str  # "none", a named rule, or "column"
+    x: np.ndarray
+    y: np.ndarray
+    lines: np.ndarray | None
+    x_label: str
+    y_label: str
+
+    @property
+    def note(self) -> str:
+        label = fitting.WEIGHTINGS.get(self.weighting, "the weights column")
+        return text.calibration_fitted(self.fit.n, self.fit.degree, label)
+
+
+class _Cache:
+    def __init__(self, size: int = 32):
+        self.size = size
+        self.items: OrderedDict = OrderedDict()
+        self.lock = threading.Lock()
+
+    def get_or_make(self, key, make):
+        with self.lock:
+            if key in self.items:
+                self.items.move_to_end(key)
+                return self.items[key]
+        value = make()
+        with self.lock:
+            self.items[key] = value
+            while len(self.items) > self.size:
+                self.items.popitem(last=False)
+        return value
+
+
+_CACHES: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
+_CACHES_LOCK = threading.Lock()
+
+
+def _cache(service: FitService, kind: str) -> _Cache:
+    with _CACHES_LOCK:
+        per = _CACHES.setdefault(service, {})
+        return per.setdefault(kind, _Cache())
+
+
+def _degree(service: FitService, ds: str, cols: Columns, split: SplitSettings, degree) -> int:
+    return clamp_degree(degree, service.split_view(ds, cols, split).max_degree)
+
+
+def calibration_fit(service: FitService, ds: str, cols: Columns, split: SplitSettings, degree, weighting=None):
+    """The precise fit on every usable row at ``degree`` with ``weighting`` (cached): a CalibrationModel.
+
+    A named weighting undefined on some rows (x = 0 under 1/x, y ≤ 0 under 1/y) is refused with
+    the file's line numbers of those rows; a named weighting with a weights column is refused.
+    """
+    rule = check_weighting_choice(weighting)
+    sel = service.selection(ds, cols)  # the owner and eviction check comes first
+    d = _degree(service, ds, cols, split, degree)
+    if rule != "none" and sel.weights is not None:
+        raise FitError(text.weights_and_rule(str(cols.weights), rule))
+
+    def make() -> CalibrationModel:
+        fitting.weights_for(rule, sel.x, sel.y, rows=sel.line_numbers)  # names the lines it is undefined on
+        fit = fitting.fit_polynomial(
+            sel.x,
+            sel.y,
+            d,
+            weights=sel.weights,
+            weighting=None if sel.weights is not None else rule,
+            x_name=sel.x_name,
+            y_name=sel.y_name,
+            x_unit=sel.x_unit,
+            y_unit=sel.y_unit,
+        )
+        used = "column" if sel.weights is not None else rule
+        x_label = text.axis_label(sel.x_name, sel.x_unit)
+        y_label = text.axis_label(sel.y_name, sel.y_unit)
+        return CalibrationModel(fit, used, sel.x, sel.y, sel.line_numbers, x_label, y_label)
+
+    return _cache(service, "fit").get_or_make((ds, cols, d, rule), make)
+
+
+# ----------------------------------------------------------------------------
+# the three results
+
+
+def read_back(model: CalibrationModel, readings: np.ndarray, k: int, level: float) -> ReadBack:
+    """Each reading (the mean of k) read back to x with its calibration interval and u(x)."""
+    return fitting.read_back(model.fit, readings, readings=k, level=level)
+
+
+def back_calculation(model: CalibrationModel, tolerance: float, lowest_tolerance: float) -> BackCalculation:
+    """Every standard's response read back through the fit and judged against the tolerances."""
+    if model.x.size > MAX_STANDARDS:
+        raise FitError(text.too_many_standards(model.x.size, MAX_STANDARDS))
+    return fitting.back_calculate(
+        model.fit, model.x, model.y, tolerance=tolerance, lowest_tolerance=lowest_tolerance, lines=model.lines
+    )
+
+
+def weighting_comparison(service: FitService, ds: str, cols: Columns, model: CalibrationModel) -> WeightingComparison:
+    """The named weightings ranked by Σ|error %| of the standards read back at this degree (cached)."""
+    if model.x.size > MAX_STANDARDS:
+        raise FitError(text.too_many_standards(model.x.size, MAX_STANDARDS))
+    d = model.fit.degree
+    return _cache(service, "weightings").get_or_make(
+        (ds, cols, d), lambda: fitting.compare_weightings(model.x, model.y, d)
+    )
+
+
+# ----------------------------------------------------------------------------
+# marks on the fit chart (merged into its figure by a clientside Patch)
+
+
+def _reading_shapes(i: int, row, domain: tuple[float, float]) -> list[dict]:
+    tag = f"{READINGS_OWNER}-{i}"
+    line = dict(
+        type="line", name=f"{tag}-y", xref="paper", x0=0, x1=1, yref="y", y0=row.y, y1=row.y,
+        line=dict(color=READING_COLOUR, width=2, dash="dash"), layer="above",
+    )  # fmt: skip
+    if not math.isfinite(row.x):
+        return [line]
+    lo = domain[0] if row.x_lower is None else row.x_lower
+    hi = domain[1] if row.x_upper is None else row.x_upper
+    band = dict(
+        type="rect", name=f"{tag}-interval", xref="x", x0=lo, x1=hi, yref="paper", y0=0, y1=1,
+        fillcolor=INTERVAL_FILL, line=dict(width=0), layer="below",
+    )  # fmt: skip
+    at = dict(
+        type="line", name=f"{tag}-x", xref="x", x0=row.x, x1=row.x, yref="paper", y0=0, y1=1,
+        line=dict(color=READING_COLOUR, width=1.5, dash="dot"), layer="above",
+    )  # fmt: skip
+    return [band, line, at]
+
+
+def reading_marks(result: ReadBack | None, domain=(0.0, 1.0), stamp=None) -> dict:
+    """The shapes that mark the first MARKED_READINGS readings: a line at y0, the interval shaded on x.
+
+    ``stamp`` (the settings and degree) makes each new result a new value for the page's store.
+    """
+    shapes: list[dict] = []
+    if result is not None:
+        for i, row in enumerate(result.rows[:MARKED_READINGS]):
+            shapes.extend(_reading_shapes(i, row, domain))
+    return {"owner": READINGS_OWNER, "shapes": shapes, "stamp": stamp}
+
+
+def failing_marks(back: BackCalculation | None, stamp=None) -> dict:
+    """A marker trace (meta owner STANDARDS_OWNER) ringing every standard that fails or does not read back."""
+    traces: list[dict] = []
+    failing = [] if back is None else [r for r in back.rows if r.within_tolerance is False]
+    if failing:
+        traces.append(
+            dict(
+                type="scatter",
+                mode="markers",
+                x=[r.x for r in failing],
+                y=[r.y for r in failing],
+                name=text.FAILING_MARK_NAME,
+                meta={"owner": STANDARDS_OWNER},
+                marker=dict(symbol="circle-open", size=17, color=FAIL_COLOUR, line=dict(width=2.5, color=FAIL_COLOUR)),
+                hovertemplate="standard outside tolerance<br>x = %{x}<br>y = %{y}<extra></extra>",
+            )
+        )
+    return {"owner": STANDARDS_OWNER, "traces": traces, "stamp": stamp}
