@@ -103,29 +103,34 @@ def prediction_table(p: PredictionView) -> html.Table | html.Div:
 READBACK_ROWS_SHOWN = 50  # readings listed on the page; the chart marks the first few
 
 
-def _notes_cell(notes) -> html.Td:
-    return html.Td([html.Div(n) for n in notes], className="cal-notes") if notes else html.Td("")
+def _reading_rows(r, level: float, domain: tuple[float, float]) -> list:
+    """One row of numbers per reading, and a row of its warnings in words under it."""
+    single = len(r.roots) == 1
+    interval = text.readback_interval(r.x_lower, r.x_upper, level, domain) if single else "—"
+    cells = [
+        _num_cell(fmt_number(r.y, 8)),
+        _num_cell(fmt_number(r.x, 8)),
+        html.Td(interval, className="num cal-interval"),
+        _num_cell(fmt_number(r.u_x, 4)),
+    ]
+    warn = "" if single and not r.warnings else "cal-warn"
+    rows = [html.Tr(cells, className=warn)]
+    if r.warnings:
+        notes = html.Td([html.Div(n) for n in r.warnings], colSpan=len(cells), className="cal-notes")
+        rows.append(html.Tr(notes, className="cal-warn cal-note-row"))
+    return rows
 
 
 def readback_table(result, domain: tuple[float, float]) -> html.Div:
     """x, its calibration interval and u(x) per reading, every warning in words, and the curve's own notes."""
     shown = min(len(result.rows), READBACK_ROWS_SHOWN)
-    rows = []
-    for r in result.rows[:shown]:
-        single = len(r.roots) == 1
-        interval = text.readback_interval(r.x_lower, r.x_upper, result.level, domain) if single else "—"
-        cells = [
-            _num_cell(fmt_number(r.y, 8)),
-            _num_cell(str(r.readings)),
-            _num_cell(fmt_number(r.x, 8)),
-            _num_cell(interval),
-            _num_cell(fmt_number(r.u_x, 4)),
-            _notes_cell(r.warnings),
-        ]
-        rows.append(html.Tr(cells, className="" if single and not r.warnings else "cal-warn"))
+    rows = [tr for r in result.rows[:shown] for tr in _reading_rows(r, result.level, domain)]
     head = list(text.READBACK_HEAD)
-    head[3] = text.readback_interval_head(result.level)
-    parts: list = [_table(tuple(head), rows, "table cal-table")]
+    head[2] = text.readback_interval_head(result.level)
+    parts: list = [
+        html.P(text.readback_mean_of(result.readings), className="muted small"),
+        _table(tuple(head), rows, "table cal-table"),
+    ]
     if shown < len(result.rows):
         parts.append(html.P(text.readbacks_shown(shown, len(result.rows)), className="muted small"))
     parts.extend(html.P(w, className="cal-warning") for w in result.warnings)

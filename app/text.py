@@ -192,7 +192,7 @@ READBACK_PLACEHOLDER = "e.g. 12.5, 40"
 READBACK_COUNT_LABEL = "k (readings per unknown)"
 READBACK_LEVEL_LABEL = "Interval level (%)"
 READBACK_EMPTY = "Type one or more readings to read them back to x."
-READBACK_HEAD = ("reading y", "k", "x", "calibration interval", "u(x)", "notes")
+READBACK_HEAD = ("reading y", "x", "calibration interval", "u(x)")
 STANDARDS_TITLE = "Standards read back"
 WEIGHTING_LABEL = "Weighting of the fit"
 TOLERANCE_LABEL = "Tolerance (±%)"
@@ -230,6 +230,15 @@ def readback_interval(lo, hi, level: float, domain: tuple[float, float]) -> str:
 
 def readback_interval_head(level: float) -> str:
     return f"{level * 100:g} % calibration interval"
+
+
+def reading_label(y) -> str:
+    """The label on a reading's line in the fit chart."""
+    return f"reading {fmt_number(y, 6)}"
+
+
+def readback_mean_of(k: int) -> str:
+    return "Each reading is one reading." if k == 1 else f"Each reading is the mean of {k} readings."
 
 
 def readbacks_shown(shown: int, total: int) -> str:

@@ -19,7 +19,7 @@ import re
 import threading
 import weakref
 from collections import OrderedDict
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -59,8 +59,8 @@ LEVEL_RANGE = (50.0, 99.9)
 READINGS_RANGE = (1, 1000)
 READINGS_OWNER = "degreescope-readback"  # name prefix of the shapes the read-back panel puts on the fit chart
 STANDARDS_OWNER = "degreescope-standards"  # meta owner of the marker trace of failing standards
-READING_COLOUR = "#d9730d"
-INTERVAL_FILL = "rgba(217, 115, 13, 0.16)"
+READING_COLOUR = "#7b3fa0"
+INTERVAL_FILL = "rgba(123, 63, 160, 0.14)"
 FAIL_COLOUR = "#b8002e"
 
 
@@ -261,9 +261,21 @@ def weighting_comparison(service: FitService, ds: str, cols: Columns, model: Cal
     if model.x.size > MAX_STANDARDS:
         raise FitError(text.too_many_standards(model.x.size, MAX_STANDARDS))
     d = model.fit.degree
-    return _cache(service, "weightings").get_or_make(
-        (ds, cols, d), lambda: fitting.compare_weightings(model.x, model.y, d)
-    )
+    return _cache(service, "weightings").get_or_make((ds, cols, d), lambda: _compare(model, d))
+
+
+def _compare(model: CalibrationModel, degree: int) -> WeightingComparison:
+    """The engine's comparison, with a skipped rule's rows named by their lines in the file."""
+    result = fitting.compare_weightings(model.x, model.y, degree)
+    rows = []
+    for row in result.rows:
+        if row.rank is None and model.lines is not None:
+            try:
+                fitting.weights_for(row.weighting, model.x, model.y, rows=model.lines)
+            except FitError as exc:
+                row = replace(row, note=f"Skipped: {exc}")
+        rows.append(row)
+    return replace(result, rows=tuple(rows))
 
 
 # ----------------------------------------------------------------------------
@@ -275,6 +287,8 @@ def _reading_shapes(i: int, row, domain: tuple[float, float]) -> list[dict]:
     line = dict(
         type="line", name=f"{tag}-y", xref="paper", x0=0, x1=1, yref="y", y0=row.y, y1=row.y,
         line=dict(color=READING_COLOUR, width=2, dash="dash"), layer="above",
+        label=dict(text=text.reading_label(row.y), textposition="end", yanchor="bottom",
+                   font=dict(color=READING_COLOUR, size=11)),
     )  # fmt: skip
     if not math.isfinite(row.x):
         return [line]

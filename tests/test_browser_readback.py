@@ -105,7 +105,7 @@ def engine_x0(degree: int, y0: float) -> float:
 
 
 def x_cell(page) -> float:
-    return float(page.locator("#readback-result tbody tr").first.locator("td").nth(2).inner_text())
+    return float(page.locator("#readback-result tbody tr").first.locator("td").nth(1).inner_text())
 
 
 def test_reading_gives_x0_interval_and_a_line_that_follows_the_degree(browser, server):
@@ -129,7 +129,7 @@ def test_reading_gives_x0_interval_and_a_line_that_follows_the_degree(browser, s
 
         set_degree(page, 3)
         page.wait_for_function(
-            "(x) => { const c = document.querySelector('#readback-result tbody tr td:nth-child(3)');"
+            "(x) => { const c = document.querySelector('#readback-result tbody tr td:nth-child(2)');"
             " return !!c && parseFloat(c.innerText) !== x; }",
             arg=x_deg2,
         )

@@ -348,3 +348,11 @@ def test_edge_types_the_new_inputs():
     assert "readback-count.value" in edge.check_callback_body(body)
     body = {"inputs": [{"id": ids.WEIGHTING, "property": "value", "value": ["1/x"]}]}
     assert "weighting.value" in edge.check_callback_body(body)
+
+
+def test_a_skipped_weighting_names_the_file_lines(fit_service):
+    """The blank (x = 0, line 2 of the file) makes 1/x and 1/x² undefined: the comparison says so by line."""
+    key = key_for(fit_service, csv_bytes("conc,area", ASSAY_X, ASSAY_Y), "assay.csv", mode="kfold")
+    out = standards.on_standards(fit_service, "none", 15, 20, key, 1)
+    words = page_text(out["comparison"])
+    assert words.count("1 line (line 2)") == 2 and "row 0" not in words
