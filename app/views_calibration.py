@@ -47,6 +47,7 @@ __all__ = [
     "parse_readings",
     "read_back",
     "reading_marks",
+    "report_sections",
     "weighting_comparison",
 ]
 
@@ -335,3 +336,50 @@ def failing_marks(back: BackCalculation | None, stamp=None) -> dict:
             )
         )
     return {"owner": STANDARDS_OWNER, "traces": traces, "stamp": stamp}
+
+
+# ----------------------------------------------------------------------------
+# the HTML report's calibration sections
+
+
+def report_sections(
+    service: FitService,
+    key: dict | None,
+    degree,
+    *,
+    readings=None,
+    count=None,
+    level=None,
+    weighting=None,
+    tolerance=None,
+    lowest_tolerance=None,
+) -> dict:
+    """Keyword arguments for ``exports.html_report``: ``read_back`` and ``back_calculation`` as on screen.
+
+    Takes the values of the calibration panels' inputs (ids.READBACK_INPUT, READBACK_COUNT,
+    READBACK_LEVEL, WEIGHTING, TOLERANCE, LOWEST_TOLERANCE). A section whose inputs the page
+    refused (its panel shows why) or that has nothing to show (no readings typed) is left out.
+    """
+    from .panels.settings import from_key
+
+    if not key or degree is None:
+        return {}
+    ds, cols, split = from_key(key)
+    out: dict = {}
+    try:
+        model = calibration_fit(service, ds, cols, split, degree, weighting)
+    except FitError:
+        return out
+    try:
+        ys = parse_readings(readings, decimal=key.get("decimal", "."))
+        if ys.size:
+            out["read_back"] = read_back(model, ys, check_readings_count(count), check_level(level))
+    except FitError:
+        pass
+    try:
+        tol = check_tolerance(tolerance, 15.0, text.TOLERANCE_WHAT)
+        low = check_tolerance(lowest_tolerance, 20.0, text.LOWEST_TOLERANCE_WHAT)
+        out["back_calculation"] = back_calculation(model, tol, low)
+    except FitError:
+        pass
+    return out

@@ -356,3 +356,23 @@ def test_a_skipped_weighting_names_the_file_lines(fit_service):
     out = standards.on_standards(fit_service, "none", 15, 20, key, 1)
     words = page_text(out["comparison"])
     assert words.count("1 line (line 2)") == 2 and "row 0" not in words
+
+
+# ----------------------------------------------------------------------------
+# the HTML report
+
+
+def test_report_sections_carry_what_the_page_shows(pontius):
+    """The report gets the same read-back and back-calculation the panels show (same fit, same numbers)."""
+    service, key, d = pontius
+    got = cal.report_sections(service, key, 2, readings="0.9; abc", count=3, level=90, weighting="none")
+    assert set(got) == {"back_calculation"}  # "abc" is refused: no read-back section
+    got = cal.report_sections(service, key, 2, readings="0.9; 1.45", count=3, level=90, weighting="none")
+    page = readback.on_readback(service, "0.9; 1.45", 3, 90, "none", key, 2)
+    rb = got["read_back"]
+    assert rb.level == 0.9 and rb.readings == 3
+    (band0,) = [s for s in marks_of(page["marks"], "-interval") if "-0-" in s["name"]]
+    assert (rb.rows[0].x_lower, rb.rows[0].x_upper) == (band0["x0"], band0["x1"])
+    assert len(got["back_calculation"].rows) == 40
+    assert cal.report_sections(service, None, 2) == {}
+    assert "back_calculation" not in cal.report_sections(service, key, 2, tolerance=0)
