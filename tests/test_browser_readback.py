@@ -112,8 +112,11 @@ def test_reading_gives_x0_interval_and_a_line_that_follows_the_degree(browser, s
     ctx, page = open_page(browser, server)
     try:
         set_degree(page, 2)
+        others = [s for s in page.evaluate(JS_SHAPES) if not s["name"].startswith(OWNER)]
+        assert others  # the chart's own shapes (the extrapolation zones) are there to be kept
         page.fill("#readback-input", "40")
         wait_reading_line(page, 40.0)
+        assert [s for s in page.evaluate(JS_SHAPES) if not s["name"].startswith(OWNER)] == others
         row = page.locator("#readback-result tbody tr").first.inner_text()
         assert "95 % calibration interval" in page.inner_text("#readback-result thead")
         assert "…" in row
@@ -139,6 +142,22 @@ def test_reading_gives_x0_interval_and_a_line_that_follows_the_degree(browser, s
         assert len(band3) == 1 and band3[0]["x0"] < x_deg3 < band3[0]["x1"]
         assert "Degree 3 fit" in page.inner_text("#readback-note") or "degree 3" in page.inner_text("#readback-note")
 
+        # a new split redraws the whole fit chart: the marks come back, the same x0 (every row is fitted)
+        page.get_by_text("k-fold cross-validation", exact=True).click()
+        wait_for_title(page, "error-chart", "10-fold cross-validation")
+        wait_reading_line(page, 40.0)
+        assert x_cell(page) == pytest.approx(x_deg3, rel=1e-9)
+
+        page.fill("#readback-input", "40, abc")  # a refused reading: the message, and no marks left behind
+        page.wait_for_selector("#readback-result .error")
+        assert "'abc' is not a number" in page.inner_text("#readback-result")
+        page.wait_for_function(
+            "(owner) => { const gd = document.querySelector('#fit-chart .js-plotly-plot');"
+            " return !(gd.layout.shapes || []).some(s => (s.name || '').startsWith(owner)); }",
+            arg=OWNER,
+        )
+        page.fill("#readback-input", "40")
+        wait_reading_line(page, 40.0)
         page.fill("#readback-input", "")  # clearing the readings takes the marks off the chart
         page.wait_for_function(
             "(owner) => { const gd = document.querySelector('#fit-chart .js-plotly-plot');"
