@@ -49,16 +49,16 @@ groups. Every redraw deals the units to folds at random in equal shares (as KFol
 * Above it, the rows are reduced once: the units are shuffled once into ``MINI_BLOCKS``
   mini-blocks (a multiple of the fold count), each reduced to its (P + 1) x (P + 1) factor. A
   redraw deals mini-blocks to folds and merges their factors (``Block.merge``, TSQR); it touches
-  no rows: 200 redraws at 10^5 rows cost about 20-28 sweeps (benchmarks/bench_stability.py, 2 loaded
+  no rows: 200 redraws at 10^5 rows cost about 15-17 sweeps (benchmarks/bench_stability.py, 2 loaded
   cores), most of it in ``sweep_from_blocks`` itself. Each redraw is, on its own, a uniformly random
   equal-share partition of the units (a random partition into mini-blocks dealt at random is one);
   redraws are not independent of each other, because units that share a mini-block stay together
   in every redraw. Of the pairs of units that share a fold in a redraw, about folds / mini-blocks
   (5 % with 10 folds and 200 mini-blocks) share it in every redraw; the shares are therefore
   estimated a little less precisely than with independent redraws, not with a bias.
-* Only the recommendation of each redraw is kept, so ``sweep_from_blocks`` gets a display block
-  without rows: no display fit is made, and the conditioning, oscillation and band checks on it
-  (which do not enter the one-standard-error rule) are skipped.
+* Only the recommendation of each redraw is kept, so ``sweep_from_blocks`` runs with
+  ``diagnostics=False``: no full-data factor, no display fit, and none of the conditioning,
+  oscillation and band checks (none of which enter the one-standard-error rule).
 """
 
 from __future__ import annotations
@@ -889,12 +889,11 @@ def verdict_stability(
     with single_thread_blas():
         redraw, method, minis, common = _redraw_setup(x, y, w, units, folds, degs, rng)
         splits = _splits(folds)
-        no_display = Block(r=np.zeros((degs[-1] + 2, degs[-1] + 2)), n=0, wsum=0.0, wysum=0.0)
         for _ in range(draws):
             parts = [(redraw(rng), splits) for _ in range(repeats)]
             with warnings.catch_warnings():  # a degree that fails in a split is reported by the sweep, not warned
                 warnings.simplefilter("ignore", RuntimeWarning)
-                verdict = sweep_from_blocks(parts, degs, display_block=no_display, **common).recommended_degree
+                verdict = sweep_from_blocks(parts, degs, diagnostics=False, **common).recommended_degree
             counts[degs.index(verdict)] += 1
     d = np.asarray(degs, dtype=np.int64)
     imax = int(np.argmax(counts))

@@ -509,19 +509,25 @@ def sweep_from_blocks(
     display_domain: tuple[float, float] | None = None,
     test_mask: np.ndarray | None = None,
     y_exp: int = 0,
+    diagnostics: bool = True,
 ) -> DegreeSweep:
     """Everything after the rows have been reduced to Blocks (shared with the streaming path).
 
     ``partitions`` is a list of (blocks: dict label -> Block, splits: list[Split]).
     When the blocks hold y / 2**y_exp (``y_range`` in the same units), every reported
     error is multiplied back by 2**y_exp.
+
+    ``diagnostics=False`` computes only what the recommendation needs (train and test
+    errors, the one-standard-error rule, where overfitting sets in): the full-data factor,
+    AIC and BIC, condition numbers, the display fit and its oscillation and band checks are
+    skipped. Their fields are then NaN (``aic``, ``bic``, ``condition_numbers``) or empty
+    (no display fit, so ``curve`` and ``band`` raise); ``aic_degree`` and ``bic_degree``
+    fall back to the recommendation. The default computes everything.
     """
     sc = _score_splits(partitions, degs, ncols, y_exp)
-    full = Block.merge(partitions[0][0].values())
-    disp = display_block if display_block is not None else full
     dlo, dhi = display_domain or domain
     geo = dict(offset=offset, scale=scale, display_domain=(dlo, dhi), y_range=y_range)
-    diag = _full_data_diagnostics(full, disp, degs, ncols, geo, sc["failed"], sc["n_train_min"], y_exp)
+    diag = _diagnose(partitions[0][0], display_block, degs, ncols, geo, sc, y_exp, diagnostics)
     rec = _recommend(degs, sc, scheme, single_split_rule)
     deg_notes = diag["notes"]
     overfit, over_from = _overfitting(degs, sc, rec, deg_notes)
@@ -544,7 +550,7 @@ def sweep_from_blocks(
         overfitting_from=over_from,
         scheme=scheme,
         n_splits=sc["nspl"],
-        rows_used=full.n,
+        rows_used=diag["rows_used"],
         n_train_min=int(sc["n_train_min"] or 0),
         warnings=tuple(notes or []),
         degree_warnings={d: tuple(v) for d, v in deg_notes.items() if v},
@@ -554,8 +560,8 @@ def sweep_from_blocks(
         offset=offset,
         scale=scale,
         display_coefficients=diag["disp_coef"],
-        display_r=disp.r,
-        display_n=disp.n,
+        display_r=diag["disp_r"],
+        display_n=diag["disp_n"],
         display_domain=(dlo, dhi),
         y_exp=y_exp,
     )
@@ -632,20 +638,38 @@ def _train_split(train: Block, degs: list[int], ncols: int, j: int, failed: dict
     rt = train.r
     rinv = _triangular_inverse(rt[:ncols, :ncols])
     dg = np.abs(np.diag(rt))[:ncols]
+    # smallest and largest |R_ii| of every leading block, and the squared residual column, once per split
+    dg_lo, dg_hi = np.minimum.accumulate(dg), np.maximum.accumulate(dg)
+    sq = rt[:, ncols] ** 2
     coefs = np.zeros((ncols + 1, len(degs)))
     coefs[ncols] = 1.0
     tss = _tss(train)
     for i, d in enumerate(degs):
         p = d + 1
-        if dg[:p].min() <= 1e3 * max(train.n, p) * eps * dg[:p].max():
+        if dg_lo[d] <= 1e3 * max(train.n, p) * eps * dg_hi[d]:
             failed.setdefault(d, f"the training set of split {j + 1} is rank deficient at degree {d}")
             continue
         # the inverse of a leading block of a triangular matrix is the leading block of its inverse
         coefs[:p, i] = -(rinv[:p, :p] @ rt[:p, ncols])
-        rss = float(np.sum(rt[p:, ncols] ** 2))
+        rss = float(np.add.reduce(sq[p:]))
         tr_rmse[i, j] = math.sqrt(max(rss, 0.0) / train.wsum)
         tr_r2[i, j] = 1.0 - rss / tss if tss > 0 else np.nan
     return coefs
+
+
+def _diagnose(blocks, display_block, degs, ncols, geometry, sc, y_exp, diagnostics: bool) -> dict[str, Any]:
+    """The full-data diagnostics, the display factor and the rows used; only the rows used when skipped."""
+    if not diagnostics:
+        nan = np.full(len(degs), np.nan)
+        rows = sum(b.n for b in blocks.values())
+        notes: dict[int, list[str]] = {d: [] for d in degs}
+        return dict(
+            aic=nan, bic=nan.copy(), conds=nan.copy(), notes=notes, disp_coef={}, rows_used=rows, disp_r=None, disp_n=0
+        )
+    full = Block.merge(blocks.values())
+    disp = display_block if display_block is not None else full
+    diag = _full_data_diagnostics(full, disp, degs, ncols, geometry, sc["failed"], sc["n_train_min"], y_exp)
+    return dict(diag, rows_used=full.n, disp_r=disp.r, disp_n=disp.n)
 
 
 def _full_data_diagnostics(full, disp, degs, ncols, geometry, failed, n_train_min, y_exp=0) -> dict[str, Any]:
