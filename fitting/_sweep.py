@@ -63,6 +63,7 @@ __all__ = [
     "cap_degrees",
     "holdout_fraction",
     "kfold_labels",
+    "kfold_deal",
     "shuffle_holdout_labels",
     "MAX_DEGREE",
     "MAX_SEED",
@@ -312,17 +313,22 @@ def kfold_labels(n: int, k: int, *, repeats: int = 1, seed: int = 0) -> list[np.
     scikit-learn is not imported, so the command line starts fast.
     """
     rng = np.random.RandomState(seed)
+    return [kfold_deal(rng, n, k) for _ in range(int(repeats))]
+
+
+def kfold_deal(rng: np.random.RandomState, n: int, k: int) -> np.ndarray:
+    """One shuffle of ``kfold_labels``: a fold label per item, sizes n // k (+1 for the first n % k folds).
+
+    ``rng.shuffle`` of 0 .. n - 1, then fold j takes the next run of positions, as KFold does.
+    Verdict stability deals its units with it, so its first redraw is the verdict's own folds.
+    """
     sizes = np.full(k, n // k, dtype=np.int64)
     sizes[: n % k] += 1
-    fold_of_position = np.repeat(np.arange(k, dtype=np.int64), sizes)
-    out = []
-    for _ in range(int(repeats)):
-        order = np.arange(n)
-        rng.shuffle(order)
-        labels = np.empty(n, dtype=np.int64)
-        labels[order] = fold_of_position
-        out.append(labels)
-    return out
+    order = np.arange(n)
+    rng.shuffle(order)
+    labels = np.empty(n, dtype=np.int64)
+    labels[order] = np.repeat(np.arange(k, dtype=np.int64), sizes)
+    return labels
 
 
 def shuffle_holdout_labels(n: int, n_test: int, *, repeats: int = 1, seed: int = 0) -> list[np.ndarray]:
