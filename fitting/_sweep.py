@@ -61,10 +61,13 @@ __all__ = [
     "block_factor",
     "normalise_degrees",
     "cap_degrees",
+    "check_holdout_sizes",
     "holdout_fraction",
     "kfold_labels",
     "kfold_deal",
     "shuffle_holdout_labels",
+    "fold_labels",
+    "holdout_mask",
     "MAX_DEGREE",
     "MAX_SEED",
 ]
@@ -277,11 +280,7 @@ def _holdout_partition(x, holdout, *, ordered, repeats, seed):
     n = x.size
     frac = check_holdout(holdout)
     n_test = int(math.ceil(frac * n))
-    if n_test < 1 or n - n_test < 2:
-        raise FitError(
-            f"A {frac:.0%} holdout of {n} rows leaves {n - n_test} for training and {n_test} for testing; "
-            "use a different fraction or more data."
-        )
+    check_holdout_sizes(frac, n, n - n_test, n_test)
     one = [Split(test=(1,), train=(0,))]
     if ordered:
         labels = np.zeros(n, dtype=np.int64)
@@ -293,6 +292,15 @@ def _holdout_partition(x, holdout, *, ordered, repeats, seed):
     parts = [(labels, one) for labels in shuffle_holdout_labels(n, n_test, repeats=repeats, seed=seed)]
     scheme = f"{frac:.0%} random holdout (seed {seed}" + (f", {repeats} repeats)" if repeats > 1 else ")")
     return parts, scheme
+
+
+def check_holdout_sizes(frac: float, n: int, n_train: int, n_test: int) -> None:
+    """Raise FitError when a holdout leaves no test row or fewer than 2 training rows (shared with streaming)."""
+    if n_test < 1 or n_train < 2:
+        raise FitError(
+            f"A {frac:.0%} holdout of {n} rows leaves {n_train} for training and {n_test} for testing; "
+            "use a different fraction or more data."
+        )
 
 
 def _kfold_partition(n: int, folds, *, repeats, seed):
@@ -345,6 +353,47 @@ def shuffle_holdout_labels(n: int, n_test: int, *, repeats: int = 1, seed: int =
         labels[rng.permutation(n)[:n_test]] = 1
         out.append(labels)
     return out
+
+
+# the streaming sweep's folds: a splitmix64 hash of the global row index and the seed (see ``_stream``)
+_GAMMA = np.uint64(0x9E3779B97F4A7C15)
+_M1 = np.uint64(0xBF58476D1CE4E5B9)
+_M2 = np.uint64(0x94D049BB133111EB)
+
+
+def _row_hash(row_index: np.ndarray, seed: int) -> np.ndarray:
+    """splitmix64 output number i + 1 for the generator state ``seed``, vectorised (uint64)."""
+    idx = np.asarray(row_index)
+    if idx.dtype.kind not in "iu":
+        raise FitError("Row indices must be whole numbers.")
+    if idx.dtype.kind == "i" and idx.size and int(idx.min()) < 0:
+        raise FitError("Row indices must be 0 or more.")
+    z = idx.astype(np.uint64) + np.uint64(1)
+    with np.errstate(over="ignore"):
+        z *= _GAMMA
+        z += np.uint64(int(seed) & 0xFFFFFFFFFFFFFFFF)
+        z ^= z >> np.uint64(30)
+        z *= _M1
+        z ^= z >> np.uint64(27)
+        z *= _M2
+        z ^= z >> np.uint64(31)
+    return z
+
+
+def fold_labels(row_index: np.ndarray, k: int, seed: int) -> np.ndarray:
+    """Fold label 0 .. k-1 (int64) of each global row index: the splitmix64 hash of the index and seed, mod k.
+
+    Deterministic: the same index and seed always give the same label,
+    whatever the chunking. Each fold gets n/k rows in expectation.
+    """
+    k = check_folds(k, None)  # any number of rows: the hash does not count them
+    return (_row_hash(row_index, seed) % np.uint64(k)).astype(np.int64)
+
+
+def holdout_mask(row_index: np.ndarray, fraction: float, seed: int) -> np.ndarray:
+    """True for the rows held out for testing: hash (top 53 bits, as a fraction) below ``fraction``."""
+    u = (_row_hash(row_index, seed) >> np.uint64(11)).astype(np.float64) * (1.0 / 9007199254740992.0)
+    return u < float(fraction)
 
 
 def _label_partition(n: int, folds):
