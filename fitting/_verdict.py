@@ -197,6 +197,9 @@ def verdict_folds(
         labels = np.asarray(groups).ravel()
         if labels.size != n:
             raise FitError(f"Expected one group label per row; got {labels.size} labels for {n} rows.")
+        if labels.dtype.kind in "iu" and (labels < 0).any():
+            # sweep_degrees keeps integer labels below 0 in training (PredefinedSplit); a group is held out
+            labels = labels.astype(str)
         units = np.unique(labels.astype(str), return_inverse=True)[1].astype(np.int64).ravel()
         k = int(units.max()) + 1
         rule = verdict_rule_text(n, grouped=k, degrees=degrees, seed=seed)

@@ -212,3 +212,18 @@ def test_large_data_are_not_repeated_as_in_the_verdict():
     x, y = clear_quadratic(n=VERDICT_REPEAT_LIMIT + 1, seed=6)
     assert verdict_sweep(x, y, degrees=range(0, 4)).n_splits == VERDICT_FOLDS
     assert verdict_stability(x, y, draws=1, degrees=range(0, 4)).repeats == 1
+
+
+def test_a_group_labelled_minus_one_is_held_out_like_any_other():
+    # source: verdict_sweep with the same groups given as text (no label is special there); as integers,
+    # -1 would mean "always in training" to sweep_degrees (PredefinedSplit), which is not a group rule
+    rng = np.random.default_rng(9)
+    x = rng.uniform(0.0, 4.0, 48)
+    y = 2.0 - x + 0.3 * x**2 + rng.normal(0.0, 0.2, 48)
+    g = np.repeat([-1, 0, 1, 2], 12)
+    ref = verdict_sweep(x, y, groups=g.astype(str))
+    got = verdict_sweep(x, y, groups=g)
+    assert got.n_splits == ref.n_splits == 4 and got.rows_used == 48
+    np.testing.assert_array_equal(got.test_rmse_folds, ref.test_rmse_folds)
+    v = verdict_stability(x, y, groups=g, draws=3)
+    assert v.folds == 4 and v.share(ref.recommended_degree) == 1.0
