@@ -55,8 +55,8 @@ partition and one sweep decides all of them.
 * Above it, the rows are reduced once: the units are shuffled once into ``MINI_BLOCKS``
   mini-blocks (a multiple of the fold count), each reduced to its (P + 1) x (P + 1) factor. A
   redraw deals mini-blocks to folds and merges their factors (``Block.merge``, TSQR); it touches
-  no rows: 200 redraws at 10^5 rows cost about 15-17 sweeps (benchmarks/bench_stability.py, 2 loaded
-  cores), most of it in ``sweep_from_blocks`` itself. Each redraw is, on its own, a uniformly random
+  no rows: 200 redraws at 10^5 rows cost about 11-20 sweeps (benchmarks/bench_stability.py, 2 cores at
+  load 2-11), most of it in ``sweep_from_blocks`` itself. Each redraw is, on its own, a uniformly random
   equal-share partition of the units (a random partition into mini-blocks dealt at random is one);
   redraws are not independent of each other, because units that share a mini-block stay together
   in every redraw. Of the pairs of units that share a fold in a redraw, about folds / mini-blocks
