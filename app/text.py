@@ -298,9 +298,10 @@ def standards_summary(s) -> str:
         )
         + "."
     )
+    ringed = " Failing standards are ringed on the fit chart." if s.standards_passing < s.standards else ""
     return (
         f"{s.standards_passing} of {s.standards} standards pass ({share}); "
-        f"{s.levels_passing} of {s.levels} levels pass. {verdict}"
+        f"{s.levels_passing} of {s.levels} levels pass. {verdict}{ringed}"
     )
 
 

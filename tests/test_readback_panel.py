@@ -376,3 +376,15 @@ def test_report_sections_carry_what_the_page_shows(pontius):
     assert len(got["back_calculation"].rows) == 40
     assert cal.report_sections(service, None, 2) == {}
     assert "back_calculation" not in cal.report_sections(service, key, 2, tolerance=0)
+
+
+def test_too_many_rows_for_standards_is_said(fit_service):
+    """Reading every row back is refused above MAX_STANDARDS rows, in words, before any work."""
+    n = cal.MAX_STANDARDS + 1
+    x = np.linspace(1.0, 100.0, n)
+    key = key_for(fit_service, csv_bytes("conc,area", x, 2 + 0.5 * x), "big.csv", mode="kfold")
+    with pytest.raises(FitError, match=f"{n:,} rows, {cal.MAX_STANDARDS:,} at most"):
+        standards.on_standards(fit_service, "none", 15, 20, key, 1)
+    out = readback.on_readback(fit_service, "30", 1, 95, "none", key, 1)  # reading back unknowns still works
+    (line,) = marks_of(out["marks"], "-x")
+    assert line["x0"] == pytest.approx((30 - 2) / 0.5, rel=1e-9)  # exact line y = 2 + 0.5 x
