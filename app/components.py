@@ -154,7 +154,7 @@ def standards_table(back) -> html.Table:
                 _num_cell(fmt_number(r.x_back, 6)),
                 _num_cell(fmt_number(r.relative_error_percent, 3)),
                 _verdict_cell(r.within_tolerance),
-                html.Td(r.note or "", className="cal-notes"),
+                html.Td(text.standard_note(r.x, r.note), className="cal-notes"),
             ],
             className="cal-warn" if r.within_tolerance is False else "",
         )

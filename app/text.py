@@ -322,3 +322,11 @@ def unknown_weighting(value, names: tuple[str, ...]) -> str:
 TOLERANCE_WHAT = "tolerance"
 LOWEST_TOLERANCE_WHAT = "tolerance at the lowest level"
 WEIGHTING_COMPARISON_TITLE = "Which weighting reads the standards back best"
+
+
+def standard_note(x: float, note: str | None) -> str:
+    """A standard's note; a blank (x = 0) always says it is a blank, which is not judged."""
+    note = note or ""
+    if x == 0 and "Blank" not in note:
+        return f"Blank (x = 0): not judged. {note}".strip()
+    return note

@@ -388,3 +388,13 @@ def test_too_many_rows_for_standards_is_said(fit_service):
     out = readback.on_readback(fit_service, "30", 1, 95, "none", key, 1)  # reading back unknowns still works
     (line,) = marks_of(out["marks"], "-x")
     assert line["x0"] == pytest.approx((30 - 2) / 0.5, rel=1e-9)  # exact line y = 2 + 0.5 x
+
+
+def test_a_blank_that_does_not_read_back_still_says_it_is_a_blank(fit_service):
+    """Invented assay whose blank response lies below the curve: the row says blank, not judged."""
+    y = list(ASSAY_Y)
+    y[0] = -5.0  # far below the line's intercept (statsmodels OLS intercept is about 0)
+    key = key_for(fit_service, csv_bytes("conc,area", ASSAY_X, y), "assay.csv", mode="kfold")
+    out = standards.on_standards(fit_service, "none", 15, 20, key, 1)
+    first = [page_text(c) for c in out["table"].children[1].children[0].children]
+    assert first[5] == text.NOT_JUDGED and first[6].startswith("Blank (x = 0): not judged.")
