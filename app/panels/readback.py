@@ -8,7 +8,10 @@ usable row with the weighting chosen in the standards panel (``app/views_calibra
 The readings are marked on the fit chart: a dashed line at each y0 and the interval shaded
 along x. A second, clientside callback merges those shapes into the chart's figure with a
 ``dash.Patch`` of ``layout.shapes`` only: it drops the shapes it put there before (their
-names start with ``views_calibration.READINGS_OWNER``) and keeps everyone else's.
+names start with ``views_calibration.READINGS_OWNER``) and keeps everyone else's. Chart code
+that draws texts straight into the plot (title, caption, meta) would see them reset when the
+graph redraws from the patched property, so the patch carries those texts along as they are
+on screen (``LIVE_TEXTS_JS``; the standards panel's patch does the same).
 """
 
 from __future__ import annotations
@@ -25,6 +28,22 @@ from .settings import from_key
 
 SLOT = "tools"
 
+# Texts some chart code draws straight into the plot (Plotly.update) rather than through the
+# figure property: a patch of the property makes the graph redraw from the stored figure, so the
+# patch carries the texts on screen along, unchanged, and the chart keeps showing what it showed.
+LIVE_TEXTS_JS = """
+function degreescopeLiveTexts(patch, figure, graphId) {
+    const gd = document.querySelector("#" + graphId + " .js-plotly-plot");
+    if (!gd || !gd.layout) { return; }
+    ["title", "annotations", "meta"].forEach(function (k) {
+        const live = gd.layout[k];
+        if (live !== undefined && JSON.stringify(live) !== JSON.stringify(figure.layout[k])) {
+            patch.assign(["layout", k], JSON.parse(JSON.stringify(live)));
+        }
+    });
+}
+"""
+
 MERGE_SHAPES_JS = """
 function(marks, figure) {
     const dc = window.dash_clientside;
@@ -37,9 +56,11 @@ function(marks, figure) {
     if (kept.length === before.length && added.length === 0) { return dc.no_update; }
     const patch = new dc.Patch();
     patch.assign(["layout", "shapes"], kept.concat(added));
+    degreescopeLiveTexts(patch, figure, "%s");
     return patch.build();
+    %s
 }
-"""
+""" % (ids.FIT_CHART, LIVE_TEXTS_JS)
 
 
 def _number_box(label: str, box_id: str, value, width_class: str = "num") -> html.Div:

@@ -19,6 +19,7 @@ from .. import components, ids, text
 from .. import views_calibration as cal
 from ..service import FitService
 from ._common import PageConfig, notice_on_error, panel
+from .readback import LIVE_TEXTS_JS
 from .settings import from_key
 
 SLOT = "main"
@@ -36,9 +37,11 @@ function(marks, figure) {
     const patch = new dc.Patch();
     old.forEach(function (t) { patch.remove(["data"], t); });
     added.forEach(function (t) { patch.append(["data"], t); });
+    degreescopeLiveTexts(patch, figure, "%s");
     return patch.build();
+    %s
 }
-"""
+""" % (ids.FIT_CHART, LIVE_TEXTS_JS)
 
 
 def _field(label: str, child, field_id: str) -> html.Div:
