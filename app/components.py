@@ -95,3 +95,24 @@ def prediction_table(p: PredictionView) -> html.Table | html.Div:
     if shown == p.x.size:
         return table
     return html.Div([table, html.P(text.predictions_shown(shown, p.x.size), className="muted small")])
+
+
+# -- data panel: the intake report with every row left out ------------------------------------
+
+
+def intake_report(info: DatasetInfo, selection=None) -> list:
+    """The dataset's name, how it was read, every reason rows were left out with their line numbers, the notes.
+
+    ``selection`` (a ``fitting.Selection`` for the columns in use) adds the rows the columns
+    leave out; without it the file's own report is shown.
+    """
+    if selection is None or not info.head_lines:
+        return intake_children(info)
+    items = [html.Li(line) for line in info.head_lines]
+    drops = [html.Li(text.dropped_line(r, d.count, d.listed_lines)) for r, d in selection.dropped.items()]
+    head = text.rows_left_out_head(selection.x_name, selection.y_name, int(selection.rows_dropped))
+    items.append(html.Li([head, html.Ul(drops, className="intake-drops")] if drops else head))
+    items.extend(html.Li(n) for n in info.notes)
+    if info.units:
+        items.append(html.Li(text.units_line(info.units)))
+    return [html.H3(info.name, className="dataset-name"), html.Ul(items, className="intake-lines")]

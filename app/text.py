@@ -181,3 +181,96 @@ def predictions_shown(shown: int, total: int) -> str:
 
 def sample_note(shown: int, rows: int) -> str:
     return f"showing a random sample of {fmt_count(shown)} of {fmt_count(rows)} points; fits use every row"
+
+
+# ----------------------------------------------------------------------------
+# data panel: rows left out, the column choice, shared views, sheets and pasted tables
+
+LINES_SHOWN = 12  # line numbers listed per reason before the rest is counted
+
+
+def lines_list(lines, count: int) -> str:
+    """ "line 9" / "lines 9, 14, 27, 28" / "lines 9, 14, … and 40 more (52 in all)"."""
+    lines = [int(v) for v in lines]
+    if not lines:
+        return f"{fmt_count(count)} rows (line numbers not recorded)"
+    shown = lines[:LINES_SHOWN]
+    head = ("line " if count == 1 else "lines ") + ", ".join(str(v) for v in shown)
+    rest = int(count) - len(shown)
+    return head if rest <= 0 else f"{head} and {fmt_count(rest)} more ({fmt_count(count)} in all)"
+
+
+def dropped_line(reason: str, count: int, lines) -> str:
+    """One intake-report line for one reason rows were left out, with their line numbers."""
+    rows = "1 row" if count == 1 else f"{fmt_count(count)} rows"
+    return f"Left out {rows}, {reason}: {lines_list(lines, count)}."
+
+
+def rows_left_out_head(x: str, y: str, total: int) -> str:
+    if not total:
+        return f"Every row has usable values of x {echo(x)} and y {echo(y)}."
+    rows = "1 row" if total == 1 else f"{fmt_count(total)} rows"
+    return f"With x {echo(x)} and y {echo(y)}, {rows} are left out:"
+
+
+def column_choice(x: str, y: str, engine_note: str | None) -> str:
+    """Why the default columns were picked."""
+    if engine_note:
+        return engine_note
+    return (
+        f"Picked x {echo(x)} and y {echo(y)}: the first two numeric columns, none of them a small-integer "
+        "counter. Choose others above if that is wrong."
+    )
+
+
+def restore_pending(file: str) -> str:
+    return (
+        f"This link shows a view of {echo(file)}: load {echo(file)} to restore this view "
+        "(its columns, split, degree and bands are kept until then)."
+    )
+
+
+def view_columns_missing(file: str, missing: list[str]) -> str:
+    names = ", ".join(echo(m) for m in missing)
+    return (
+        f"The shared view of {echo(file)} uses columns this file does not have ({names}); "
+        "the default columns are shown instead."
+    )
+
+
+def view_content_differs(file: str) -> str:
+    return (
+        f"This {echo(file)} differs in content from the file the link was made with; "
+        "the view's settings are applied, but the numbers may differ."
+    )
+
+
+def view_restored(file: str) -> str:
+    return f"Restored the shared view of {echo(file)}."
+
+
+def sheet_loaded(file: str, sheet: str, rows: int) -> str:
+    return f"Read sheet {echo(sheet)} of {echo(file)}: {fmt_count(rows)} rows."
+
+
+def _is_degree_cap(note: str) -> bool:
+    return note.startswith("Degrees ") and "were left out" in note
+
+
+def labelled_sweep_notes(view: SplitView) -> list[str]:
+    """The sweeps' notes, each labelled with the sweep it belongs to, each once.
+
+    A note on degrees left out for too few distinct x values is shown once, for the charts'
+    split (the slider's range follows it), not also for the recommendation's sweep.
+    """
+    chart = f"Charts ({view.split_label})"
+    verdict = f"Recommendation ({view.steady_label})"
+    notes = [f"{chart}: {w}" for w in view.sweep.warnings]
+    capped = any(_is_degree_cap(w) for w in view.sweep.warnings)
+    for w in view.steady.warnings:
+        if w in view.sweep.warnings or (capped and _is_degree_cap(w)):
+            continue
+        notes.append(f"{verdict}: {w}")
+    if view.rows_dropped:
+        notes.append(f"{fmt_count(view.rows_dropped)} rows were left out with these columns (see the intake report).")
+    return notes
