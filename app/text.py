@@ -203,7 +203,7 @@ def lines_list(lines, count: int) -> str:
 def dropped_line(reason: str, count: int, lines) -> str:
     """One intake-report line for one reason rows were left out, with their line numbers."""
     rows = "1 row" if count == 1 else f"{fmt_count(count)} rows"
-    return f"Left out {rows}, {reason}: {lines_list(lines, count)}."
+    return f"{reason[:1].upper()}{reason[1:]} ({rows}): {lines_list(lines, count)}."
 
 
 def rows_left_out_head(x: str, y: str, total: int) -> str:
@@ -263,8 +263,8 @@ def labelled_sweep_notes(view: SplitView) -> list[str]:
     A note on degrees left out for too few distinct x values is shown once, for the charts'
     split (the slider's range follows it), not also for the recommendation's sweep.
     """
-    chart = f"Charts ({view.split_label})"
-    verdict = f"Recommendation ({view.steady_label})"
+    chart = f"Charts' split, {view.split_label}"
+    verdict = f"Recommendation's sweep, {view.steady_label}"
     notes = [f"{chart}: {w}" for w in view.sweep.warnings]
     capped = any(_is_degree_cap(w) for w in view.sweep.warnings)
     for w in view.steady.warnings:

@@ -211,10 +211,7 @@ def test_a_long_list_of_lines_is_shortened_with_a_count():
     assert text.lines_list([5], 1) == "line 5"
     long = text.lines_list(list(range(2, 52)), 50)
     assert long.startswith("lines 2, 3,") and long.endswith("and 38 more (50 in all)")
-    assert (
-        text.dropped_line("missing or non-numeric y", 2, [3, 4])
-        == "Left out 2 rows, missing or non-numeric y: lines 3, 4."
-    )
+    assert text.dropped_line("missing or non-numeric y", 2, [3, 4]) == "Missing or non-numeric y (2 rows): lines 3, 4."
 
 
 def test_the_degree_cap_note_appears_once_labelled_with_its_sweep(fit_service):
@@ -229,7 +226,7 @@ def test_the_degree_cap_note_appears_once_labelled_with_its_sweep(fit_service):
     assert len(capped) == 2 and capped[0] != capped[1]  # the two sweeps' contradicting notes exist
     notes = [p.children for p in data.on_selection(fit_service, key, 1, None)["sweep_notes"]]
     caps = [n for n in notes if "were left out" in n]
-    assert len(caps) == 1 and caps[0].startswith(f"Charts ({view.split_label}): Degrees")
+    assert len(caps) == 1 and caps[0].startswith(f"Charts' split, {view.split_label}: Degrees")
 
 
 # ----------------------------------------------------------------------------
