@@ -517,14 +517,16 @@ class FitService:
         table = fitting.read_table(path, max_bytes=max(self.upload_limit_bytes, path.stat().st_size), name=path.name)
         return self._put(table, path.name, digest=_file_digest(path))
 
-    def find_loaded(self, name: str, digest: str | None = None) -> DatasetInfo | None:
+    def find_loaded(self, name: str, digest: str | None = None, sheet: str | None = None) -> DatasetInfo | None:
         """The most recent dataset this browser session may see that was read from a file called ``name``.
 
-        With ``digest``, one whose content matches is preferred; a name match is taken otherwise.
+        With ``digest``, one whose content matches is preferred, and with ``sheet`` that sheet of it;
+        a name match is taken otherwise.
         """
         found = [(k, d) for k, d in self.store.visible_items() if d.name == name]
         same = [p for p in found if digest and p[1].meta.get("digest") == digest]
-        pick = (same or found or [None])[-1]
+        exact = [p for p in same if sheet and p[1].table.sheet == sheet]
+        pick = (exact or same or found or [None])[-1]
         if pick is None:
             return None
         try:

@@ -280,3 +280,21 @@ def test_a_pasted_block_with_decimal_commas_goes_through_intake(fit_service):
         data.on_paste(fit_service, 2, "   ")
     with pytest.raises(FileTooLargeError):
         data.on_paste(new_service(limit=50), 1, pasted)
+
+
+def test_a_view_of_another_sheet_reads_that_sheet_then_applies(fit_service):
+    mime = "application/vnd.openxmlformats-officedocument.spreadsheetml.sheet"
+    author = new_service()
+    a = data.on_upload(author, data_url(workbook(), mime), "runs.xlsx")["dataset"]
+    b = data.on_sheet(author, "run B", a)["dataset"]
+    search = url_query(split_key(b, "dose (ug)", "response", None, None, "kfold", 25, 4, 0), 1)
+    assert parse_query(search)["sheet"] == "run B"
+    sample = fit_service.info(fit_service.sample_id())
+    pending = data.on_dataset(fit_service, sample.to_store(), search)["pending"]
+    up = data.on_upload(fit_service, data_url(workbook(), mime), "runs.xlsx")["dataset"]
+    assert up["sheet"] == "run A"  # the engine's choice
+    first = data.on_dataset(fit_service, up, "", pending)
+    assert first["sheet"] == "run B" and first["pending"] == pending and first["x"] is no_update
+    other = data.on_sheet(fit_service, first["sheet"], up)["dataset"]
+    out = data.on_dataset(fit_service, other, "", first["pending"])
+    assert (out["sheet"], out["mode"], out["folds"], out["degree"], out["pending"]) == ("run B", "kfold", 4, 1, None)

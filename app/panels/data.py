@@ -286,6 +286,12 @@ def _column_note(info: DatasetInfo, cols: dict) -> str:
     return text.column_choice(info.default_x, info.default_y, info.choice_note)
 
 
+def _other_sheet(info: DatasetInfo, q: dict) -> bool:
+    """The view names this workbook and another of its sheets."""
+    sheet = q.get("sheet")
+    return bool(q.get("file")) and bool(sheet) and sheet != info.sheet and sheet in info.sheet_names
+
+
 def on_dataset(service: FitService, dataset, search, pending=URL_UNREAD) -> dict:
     """Column pickers and intake report for a dataset; a shared view's settings when they are for this file.
 
@@ -298,10 +304,14 @@ def on_dataset(service: FitService, dataset, search, pending=URL_UNREAD) -> dict
     q, source = _view_source(search, pending)
     if names_other_file(q, dataset):
         waiting = dict(search=source, file=q["file"])
-        if service.find_loaded(q["file"], q.get("sha")) is not None:  # on_restore brings it in
+        if service.find_loaded(q["file"], q.get("sha"), q.get("sheet")) is not None:  # on_restore brings it in
             return {name: no_update for name in DATASET_OUTPUT} | dict(pending=waiting, view_notice="")
         out = _apply_view(info, {})
         out.update(pending=waiting, view_notice=text.restore_pending(q["file"]))
+    elif _other_sheet(info, q):  # the view's sheet of this workbook: on_sheet reads it, then the view applies
+        waiting = dict(search=source, file=q["file"])
+        pickers = _pickers(info) | dict(sheet=q["sheet"])
+        return {name: no_update for name in DATASET_OUTPUT} | pickers | dict(pending=waiting, view_notice="")
     else:
         from_pending = isinstance(pending, dict) and not pending.get("unread") and bool(source)
         out = _apply_view(info, q | ({"from_pending": "1"} if from_pending else {}))
@@ -322,7 +332,7 @@ def on_restore(service: FitService, search, dataset, pending) -> dict:
     q, _ = _view_source(search, pending)
     if not names_other_file(q, dataset):
         return dict(dataset=no_update)
-    found = service.find_loaded(q["file"], q.get("sha"))
+    found = service.find_loaded(q["file"], q.get("sha"), q.get("sheet"))
     if found is None or (dataset and found.id == dataset.get("id")):
         return dict(dataset=no_update)
     return dict(dataset=found.to_store())
