@@ -230,3 +230,43 @@ def test_a_shared_url_restores_the_view_for_a_colleague_and_on_reload(browser, s
         ctx_a.close()
         if ctx_b is not None:
             ctx_b.close()
+
+
+# ----------------------------------------------------------------------------
+# the degree follows the columns
+
+
+def set_degree(pg, d: int) -> None:
+    pg.locator("#degree [role=slider]").focus()
+    for _ in range(25):
+        if degree_now(pg) == d:
+            return
+        pg.keyboard.press("ArrowLeft" if degree_now(pg) > d else "ArrowRight")
+        pg.wait_for_timeout(150)
+    wait_for_title(pg, FIT, f"Degree {d} fit")
+
+
+def test_the_degree_follows_new_columns_and_stays_for_a_new_split(browser, server, tmp_path):
+    csv = tmp_path / "oven.csv"
+    oven_csv(csv)
+    ctx, pg = open_page(browser, server.url, width=1024)
+    try:
+        wait_for_title(pg, FIT, "Degree")
+        pg.set_input_files("#upload input[type=file]", str(csv))
+        wait_for_title(pg, FIT, "straight against set point (C)")
+        set_degree(pg, 5)  # by hand
+        pg.get_by_text("k-fold cross-validation", exact=True).click()
+        wait_for_title(pg, ERR, "10-fold")
+        pg.wait_for_timeout(1000)
+        assert degree_now(pg) == 5  # same columns: the hand-set degree stays
+        pick(pg, "y-column", "bending")
+        wait_for_title(pg, FIT, "bending against set point (C)")
+        rec = int(re.search(r"\d+", pg.inner_text("#recommended-degree")).group())
+        wait_for_title(pg, FIT, f"Degree {rec} fit")
+        pg.wait_for_function("(d) => location.search.includes('degree=' + d)", arg=rec)
+        # the model card follows: as many coefficient rows as the recommended degree needs
+        pg.wait_for_function("(n) => document.querySelectorAll('#coefficients tbody tr').length === n", arg=rec + 1)
+        assert rec != 5
+        shot(pg, "data-06-degree-follows-columns-1024")
+    finally:
+        ctx.close()

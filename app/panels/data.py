@@ -66,7 +66,7 @@ def _paste_box(cfg: PageConfig) -> html.Div:
             dcc.Textarea(
                 id=ids.PASTE_TEXT,
                 className="paste-input",
-                placeholder="x\ty\n0,5\t1,25\n1,0\t2,40",
+                placeholder="Paste here: a header row, then one row per line (tabs, ';' or ',' between cells)",
                 maxLength=cfg.upload_limit_bytes,
             ),
             html.Button("Use the pasted table", id=ids.PASTE_BUTTON, n_clicks=0, className="btn btn-small"),
@@ -77,7 +77,10 @@ def _paste_box(cfg: PageConfig) -> html.Div:
 
 def _sheet_box() -> html.Div:
     return html.Div(
-        [html.Label("Sheet", htmlFor=ids.SHEET), dcc.Dropdown(id=ids.SHEET, clearable=False)],
+        [
+            html.Label("Sheet (this workbook has several)", htmlFor=ids.SHEET),
+            dcc.Dropdown(id=ids.SHEET, clearable=False),
+        ],
         id=ids.SHEET_BOX,
         style=HIDE,
     )
