@@ -93,3 +93,5 @@ COLUMN_NOTE = "column-note"  # which columns were picked and why
 VIEW_PENDING = "view-pending"  # dcc.Store: the shared view waiting for its file ({"search", "file"})
 VIEW_COLUMNS = "view-columns"  # dcc.Store: [dataset, x, y, weights, group] the degree was last set for
 INTERVAL_LEVEL = "interval-level"  # dcc.Store: the interval level in per cent the URL keeps (a level control writes it)
+URL_WANTED = "url-wanted"  # dcc.Store: the address the page should show (put in place by replaceState)
+URL_APPLIED = "url-applied"  # dcc.Store: output of that clientside step (never set)

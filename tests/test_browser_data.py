@@ -208,6 +208,11 @@ def test_a_shared_url_restores_the_view_for_a_colleague_and_on_reload(browser, s
     try:
         wait_for_title(a, FIT, "Degree")
         shared = set_view(a, csv)
+        # the bands are put into the address in place: the back button still goes back
+        a.wait_for_timeout(800)
+        a.go_back()
+        a.wait_for_timeout(1500)
+        assert a.url != shared
         # a colleague: a fresh browser context (its own session), the file not loaded there
         ctx_b, b = open_page(browser, shared, width=1024)
         wait_text(b, "view-notice", "load 'oven.csv' to restore this view")

@@ -100,6 +100,8 @@ def layout(cfg: PageConfig) -> list:
         dcc.Store(id=ids.VIEW_PENDING, data=dict(URL_UNREAD)),
         dcc.Store(id=ids.VIEW_COLUMNS),
         dcc.Store(id=ids.INTERVAL_LEVEL),
+        dcc.Store(id=ids.URL_WANTED),
+        dcc.Store(id=ids.URL_APPLIED),
     )
     columns = panel(
         "Columns",
@@ -343,16 +345,30 @@ def on_restore(service: FitService, search, dataset, pending) -> dict:
 
 # ----------------------------------------------------------------------------
 # the URL keeps the bands and the interval level; a pending view keeps its URL
+#
+# The model card writes the URL (``ids.URL``, a new history entry per settled degree) from the
+# settings record, which knows neither the bands nor the level. ``on_url`` works out the address
+# the page should show and a clientside step puts it in place with ``history.replaceState``: no
+# further history entry, so the back button still leaves the page.
 
-URL_OUTPUT = dict(search=Output(ids.URL, "search", allow_duplicate=True))
+URL_OUTPUT = dict(search=Output(ids.URL_WANTED, "data"))
 URL_INPUTS = dict(
     search=Input(ids.URL, "search"), bands=Input(ids.BANDS, "value"), level=Input(ids.INTERVAL_LEVEL, "data")
 )
 URL_STATE = dict(pending=State(ids.VIEW_PENDING, "data"))
+REPLACE_URL_JS = """
+function(wanted) {
+    if (typeof wanted === "string" && wanted.startsWith("?") && wanted !== window.location.search) {
+        window.history.replaceState(window.history.state, "", window.location.pathname + wanted + window.location.hash);
+    }
+    return window.dash_clientside.no_update;
+}
+"""
 
 
 def on_url(search, bands, level, pending) -> dict:
-    """The URL with the bands and level set; while a view waits for its file, the view's own URL."""
+    """The address the page should show: the URL with the bands and level set; while a view waits for its
+    file, the view's own URL."""
     if isinstance(pending, dict) and pending.get("unread"):
         return dict(search=no_update)
     if isinstance(pending, dict) and pending.get("search"):
@@ -440,6 +456,7 @@ def _register_view(app, service: FitService) -> None:
         prevent_initial_call=True,
         on_error=notice_on_error(URL_OUTPUT, ids.VIEW_NOTICE),
     )(on_url)
+    app.clientside_callback(REPLACE_URL_JS, Output(ids.URL_APPLIED, "data"), Input(ids.URL_WANTED, "data"))
     app.callback(
         output=SELECTION_OUTPUT,
         inputs=SELECTION_INPUTS,
