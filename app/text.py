@@ -225,8 +225,8 @@ def column_choice(x: str, y: str, engine_note: str | None) -> str:
 
 def restore_pending(file: str) -> str:
     return (
-        f"This link shows a view of {echo(file)}: load {echo(file)} to restore this view "
-        "(its columns, split, degree and bands are kept until then)."
+        f"This link shows a view of {echo(file)}: load {echo(file)} to restore this view. Its columns, split, "
+        "degree and bands are kept until then; meanwhile the page shows another file."
     )
 
 
