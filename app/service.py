@@ -498,7 +498,9 @@ class FitService:
             raise fitting.IntakeError("Paste a table first: cells copied from a spreadsheet, or a text table.")
         data = pasted.encode("utf-8")
         if len(data) > self.upload_limit_bytes:
-            raise fitting.FileTooLargeError(_too_large(len(data), self.upload_limit_bytes))
+            raise fitting.FileTooLargeError(
+                _too_large(len(data), self.upload_limit_bytes).replace("The file is", "The pasted table is", 1)
+            )
         return self.load_bytes(data, name)
 
     def load_sheet(self, ds_id: str, sheet: str) -> DatasetInfo:

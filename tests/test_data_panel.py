@@ -278,7 +278,7 @@ def test_a_pasted_block_with_decimal_commas_goes_through_intake(fit_service):
     assert data.on_paste(fit_service, 0, pasted) == {"dataset": no_update, "notice": no_update}
     with pytest.raises(IntakeError):
         data.on_paste(fit_service, 2, "   ")
-    with pytest.raises(FileTooLargeError):
+    with pytest.raises(FileTooLargeError, match="The pasted table is .* over this server's upload limit"):
         data.on_paste(new_service(limit=50), 1, pasted)
 
 

@@ -63,11 +63,11 @@ def _paste_box(cfg: PageConfig) -> html.Div:
             html.Label(
                 "…or paste a table (cells copied from a spreadsheet, or any text table)", htmlFor=ids.PASTE_TEXT
             ),
+            # no maxLength: the browser would cut a long paste without a word; the server names the limit
             dcc.Textarea(
                 id=ids.PASTE_TEXT,
                 className="paste-input",
                 placeholder="Paste here: a header row, then one row per line (tabs, ';' or ',' between cells)",
-                maxLength=cfg.upload_limit_bytes,
             ),
             html.Button("Use the pasted table", id=ids.PASTE_BUTTON, n_clicks=0, className="btn btn-small"),
         ],
