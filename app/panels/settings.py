@@ -4,7 +4,7 @@ A shared URL names the file besides the settings: ``file`` (its name), ``sha`` (
 hex digits of its SHA-256) and, for a workbook, ``sheet``; then the columns, the split, the
 degree, the bands shown (``bands``) and the interval level in per cent (``level``). A page
 opened on a URL whose file is not loaded keeps the settings pending until a file of that
-name is loaded (``view_from_query``).
+name is loaded (``app/panels/data.py``, ``on_dataset``).
 """
 
 from __future__ import annotations
