@@ -42,6 +42,7 @@ import fitting
 from fitting import MAX_DEGREE, MAX_SEED, DegreeSweep, FitError, PolynomialFit, Selection, Table
 
 from . import text
+from .handover import file_sha256
 from .store import DatasetStore, StoredDataset
 
 __all__ = [
@@ -465,7 +466,7 @@ class FitService:
     def load_bytes(self, data: bytes, name: str | None) -> DatasetInfo:
         """Read an uploaded file's bytes (within the upload limit) and store the table."""
         table = fitting.read_table(data, max_bytes=self.upload_limit_bytes, name=name)
-        return self._put(table, name or "upload")
+        return self._put(table, name or "upload", file_sha256(data))
 
     def load_upload(self, contents: str, filename: str | None) -> DatasetInfo:
         """Decode a ``dcc.Upload`` data URL (size checked first) and store its table."""
@@ -476,7 +477,7 @@ class FitService:
         """Read a file on this machine (any size) and store its table."""
         path = Path(path)
         table = fitting.read_table(path, max_bytes=max(self.upload_limit_bytes, path.stat().st_size), name=path.name)
-        return self._put(table, path.name)
+        return self._put(table, path.name, file_sha256(path))
 
     def sample_id(self) -> str:
         """Id of the start-up dataset, reloading it if it was evicted."""
@@ -485,10 +486,10 @@ class FitService:
                 self._sample_id = self.load_path(self.sample_path).id
             return self._sample_id
 
-    def _put(self, table: Table, name: str) -> DatasetInfo:
+    def _put(self, table: Table, name: str, sha256: str | None = None) -> DatasetInfo:
         # room for the table and for the column selections made from it
         nbytes = 2 * int(table.frame.memory_usage(deep=True).sum())
-        stored = StoredDataset(name=name, table=table, nbytes=nbytes)
+        stored = StoredDataset(name=name, table=table, nbytes=nbytes, meta={"sha256": sha256})
         key = self.store.put(stored)
         info = self._describe(key, stored)
         stored.meta["info"] = info
@@ -620,7 +621,7 @@ class FitService:
             train_rmse=float(sweep.train_rmse[i]),
             test_rmse=float(sweep.test_rmse[i]),
             test_rmse_se=_se(sweep, i),
-            train_r2=float(sweep.train_r2[i]),
+            train_r2=_drawn_r2(sweep, d) if sweep.test_mask is None else float(sweep.train_r2[i]),
             test_r2=float(sweep.test_r2[i]),
             warnings=tuple(view.steady.warnings_for(d)),
         )
@@ -693,6 +694,13 @@ class FitService:
 def _se(sweep: DegreeSweep, i: int) -> float:
     """The test RMSE's standard error across splits; NaN for a single holdout."""
     return float(sweep.test_rmse_se[i]) if sweep.n_splits > 1 else float("nan")
+
+
+def _drawn_r2(sweep: DegreeSweep, d: int) -> float:
+    """R² of the drawn fit (every row, folds): 1 − RSS_d / RSS_0 from its R factor, as the precise fit reports it."""
+    r = sweep.display_r
+    rss, tss = (float(np.sum(r[p:, -1] ** 2)) for p in (d + 1, 1))
+    return 1.0 - rss / tss if tss > 0 else float("nan")
 
 
 def _chart_rows(n: int) -> np.ndarray:
