@@ -82,3 +82,7 @@ HOLDOUT_BOX = "holdout-box"
 FOLDS_BOX = "folds-box"
 UPLOAD_BOX = "upload-box"  # carries data-limit for assets/degreescope.js
 DEGREE_SETTLED = "degree-settled"  # dcc.Store: the degree once it has rested (clientside debounce)
+
+# -- model card, predictions and downloads (app/panels/model.py, predict.py, downloads.py) --
+MODEL_HANDOVER = "model-handover"  # the card's one line: the model is fitted on every usable row
+PREDICT_NOTE = "predict-note"
