@@ -171,7 +171,7 @@ def test_rounding_noise_reads_zero_and_r2_near_one_is_never_one():
     info = svc.load_bytes(exact.encode(), "square.csv")
     key = key_for(svc, info, "kfold")
     line = cells(model.on_model(svc, key, 1)["stats"])
-    assert line[line.index("R²") + 1] == "0"  # a straight line through a symmetric parabola: R² is 0 in exact arithmetic
+    assert line[line.index("R²") + 1] == "0"  # a line through a symmetric parabola: R² is 0 exactly
     exact_fit = cells(model.on_model(svc, key, 2)["stats"])
     assert exact_fit[exact_fit.index("RMSE") + 1] == "0"  # y = x² exactly: the RMSE is rounding noise
     sensor = FitService(DatasetStore(), upload_limit_bytes=2**24)
