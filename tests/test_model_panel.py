@@ -261,3 +261,19 @@ def test_components_table_helpers_are_plain_functions():
     assert m.fit.n == 19 and m.every_row
     assert svc.model_view(ds, cols, split, 2).fit.n < 19  # the split's own fit is still the training rows'
     assert isinstance(components.model_stats_table(m), type(components.model_coefficient_table(m)))
+
+
+def test_tiny_r2_and_rmse_read_zero_and_a_near_one_r2_keeps_its_digits():
+    from dataclasses import replace
+
+    svc = service()
+    info = svc.load_bytes(pressure_csv().encode(), "pressure.csv")
+    ds, cols, split = downloads.from_key(key_for(svc, info))
+    m = views_model.handover_model(svc, ds, cols, split, 2)
+    y_scale = 100.5  # the largest |y| of this calibration, in mV
+    tiny = replace(m, fit=replace(m.fit, r_squared=5.42e-20, rmse=3.1e-38, adjusted_r_squared=-0.0625))
+    table = cells(components.model_stats_table(tiny, y_scale))
+    assert table[table.index("RMSE") + 1] == "0" and table[table.index("R²") + 1] == "0"
+    near = replace(m, fit=replace(m.fit, r_squared=0.9999975))
+    table = cells(components.model_stats_table(near, y_scale))
+    assert table[table.index("R²") + 1] == "0.9999975"  # never "1"
