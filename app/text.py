@@ -239,12 +239,12 @@ def handover_note(model: ModelView) -> str:
     return " ".join(part for part in [note, weighting_note(f), *f.warnings] if part)
 
 
-def handover_residual_caption(model: ModelView) -> tuple[str, str]:
-    """The residual chart's caption: residuals of the hand-over fit."""
-    sampled = "; a random sample of the points is shown" if model.residual_sampled else ""
+def handover_residual_caption(model: ModelView) -> tuple[str, ...]:
+    """The residual chart's caption, in short lines (a narrow chart must not cut them)."""
     return (
-        f"Residual = y − the hand-over fit's value (every usable row, {fmt_count(model.fit.n)} rows){sampled}.",
-        "The dotted line is zero; a pattern (a bend, a funnel) says the degree misses something.",
+        f"Residual = y − the hand-over fit (every usable row, {fmt_count(model.fit.n)} rows)"
+        + ("; a sample of the points is shown." if model.residual_sampled else "."),
+        "A bend or a funnel in the points: the degree misses something.",
     )
 
 
