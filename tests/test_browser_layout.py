@@ -200,3 +200,24 @@ def test_long_column_names_fit_inside_the_fit_chart(browser, server, tmp_path):
         assert not texts, "\n".join(texts)
     finally:
         ctx.close()
+
+
+def test_print_is_one_column_without_buttons(browser, server, tmp_path):
+    ctx, page = open_page(browser, server, 1024)
+    try:
+        settle(page)
+        page.emulate_media(media="print")
+        shown = page.evaluate(
+            "() => Array.from(document.querySelectorAll('button, .btn, textarea')).filter(b => b.offsetParent)"
+            ".map(b => b.innerText || b.tagName)"
+        )
+        assert shown == []
+        side, main = (page.locator(sel).bounding_box() for sel in (".side", ".main"))
+        assert side["y"] + side["height"] <= main["y"] + 1  # stacked: one column
+        assert main["width"] > 900
+        check_boxes(page, "print")
+        pdf = tmp_path / "page.pdf"
+        page.pdf(path=str(pdf), format="A4")
+        assert pdf.read_bytes()[:5] == b"%PDF-"
+    finally:
+        ctx.close()
