@@ -109,10 +109,10 @@ def _interval_cell(lo, hi, digits: int = 6) -> html.Td:
     )
 
 
-def model_stats_table(model: ModelView, y_scale: float = 0.0) -> html.Table:
+def model_stats_table(model: ModelView, y_scale: float = 0.0, mode: str = "holdout") -> html.Table:
     """The hand-over fit's numbers beside the split's held-out numbers (formatted as the chart captions are).
 
-    ``y_scale`` is the magnitude below which an RMSE in y's units is rounding noise ("0").
+    ``y_scale`` is the largest |y|: an RMSE below 1e-12 of it is rounding noise ("0"). ``mode`` is the split's.
     """
     from ._format import zero_scale
 
@@ -138,7 +138,6 @@ def model_stats_table(model: ModelView, y_scale: float = 0.0) -> html.Table:
         ("adjusted R²", fmt_r2(f.adjusted_r_squared, text.R2_DIGITS), fmt_number(None)),
     ]
     body = [html.Tr([html.Th(a), _num_cell(b), _num_cell(c)]) for a, b, c in rows]
-    mode = "kfold" if "fold" in model.split_label else "holdout"
     return _table(text.stats_head(mode), body, "table stats-table")
 
 

@@ -273,6 +273,15 @@ def prediction_head(x_name: str, x_unit: str | None, y_name: str, y_unit: str | 
     )
 
 
+def interval_weight_note(fit) -> str:
+    """Which weight a weighted model's prediction intervals assume at a new x ("" when unweighted)."""
+    if fit.weighting == "column":
+        return next((w for w in fit.warnings if "weight of 1 at a new x" in w), "")
+    if fit.weighted:
+        return f"Prediction intervals use the weight the rule {fit.weighting} gives at each x."
+    return ""
+
+
 PREDICT_NOTE = (
     "Predictions use the hand-over model (every usable row). Confidence: where the mean of y lies; "
     "prediction: where one new reading lies."

@@ -277,3 +277,14 @@ def test_tiny_r2_and_rmse_read_zero_and_a_near_one_r2_keeps_its_digits():
     near = replace(m, fit=replace(m.fit, r_squared=0.9999975))
     table = cells(components.model_stats_table(near, y_scale))
     assert table[table.index("R²") + 1] == "0.9999975"  # never "1"
+
+
+def test_weighted_predictions_say_which_weight_their_intervals_assume():
+    svc = service()
+    info = svc.load_bytes(weighted_csv().encode(), "thermistor.csv")
+    key = key_for(svc, info, "kfold", x="temperature (°C)", y="R (kΩ)", weights="w")
+    flat = str(predict.on_predict(svc, "20, 45", key, 3)["table"].to_plotly_json())
+    assert "weight of 1 at a new x" in flat
+    plain = service()
+    info = plain.load_bytes(pressure_csv().encode(), "pressure.csv")
+    assert "weight" not in str(predict.on_predict(plain, "500", key_for(plain, info), 2)["table"].to_plotly_json())

@@ -68,7 +68,7 @@ def on_model(service: FitService, key, degree) -> dict:
     y_scale = float(max(np.max(np.abs(v), initial=0.0) for v in (view.train_y, view.test_y)))
     return dict(
         handover=text.handover_line(model),
-        stats=components.model_stats_table(model, y_scale),
+        stats=components.model_stats_table(model, y_scale, split.mode),
         equation=model.equation,
         coefficients=components.model_coefficient_table(model),
         residual_figure=residual_figure(view, model),

@@ -14,7 +14,7 @@ from dash import Input, Output, dcc, html
 
 from .. import components, ids, views_model
 from ..service import FitService, parse_x_values
-from ..text import PREDICT_NOTE, prediction_head
+from ..text import PREDICT_NOTE, interval_weight_note, prediction_head
 from ._common import PageConfig, notice_on_error, panel
 from .settings import from_key
 
@@ -53,8 +53,11 @@ def on_predict(service: FitService, text, key, degree) -> dict:
     ds, cols, split = from_key(key)
     sel = service.selection(ds, cols)
     head = prediction_head(sel.x_name, sel.x_unit, sel.y_name, sel.y_unit)
+    fit = views_model.handover_model(service, ds, cols, split, degree).fit
     p = views_model.handover_predict(service, ds, cols, split, degree, xs)
-    return dict(table=components.handover_prediction_table(p, head))
+    table = components.handover_prediction_table(p, head)
+    weight = interval_weight_note(fit)
+    return dict(table=html.Div([table, html.P(weight, className="muted small")]) if weight else table)
 
 
 def register(app, service: FitService) -> None:
