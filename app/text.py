@@ -220,8 +220,8 @@ def weighting_note(fit) -> str:
     if not fit.weighted:
         return ""
     base = (
-        "Weighted fit: the weighted RMSE is √(Σ w·residual² / Σ w), in y's units only when the weights average 1; "
-        "the unweighted RMSE is the plain root mean square of the residuals."
+        "Weighted fit: the weighted RMSE is √(Σ w·residual² / Σ w), which counts the rows with large weights "
+        "more; the unweighted RMSE counts every row the same."
     )
     if fit.weighting not in ("column", "none"):
         return f"{base} Intervals at a new x use the weight the rule {fit.weighting} gives there."
