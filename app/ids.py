@@ -95,3 +95,7 @@ VIEW_COLUMNS = "view-columns"  # dcc.Store: [dataset, x, y, weights, group] the 
 INTERVAL_LEVEL = "interval-level"  # dcc.Store: the interval level in per cent the URL keeps (a level control writes it)
 URL_WANTED = "url-wanted"  # dcc.Store: the address the page should show (put in place by replaceState)
 URL_APPLIED = "url-applied"  # dcc.Store: output of that clientside step (never set)
+
+# -- model card, predictions and downloads (app/panels/model.py, predict.py, downloads.py) --
+MODEL_HANDOVER = "model-handover"  # the card's one line: the model is fitted on every usable row
+PREDICT_NOTE = "predict-note"

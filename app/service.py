@@ -27,7 +27,6 @@ from __future__ import annotations
 
 import base64
 import binascii
-import hashlib
 import math
 import re
 import threading
@@ -43,6 +42,7 @@ import fitting
 from fitting import MAX_DEGREE, MAX_SEED, DegreeSweep, FitError, PolynomialFit, Selection, Table
 
 from . import text
+from .handover import file_sha256
 from .store import DatasetGone, DatasetStore, StoredDataset
 
 __all__ = [
@@ -485,7 +485,7 @@ class FitService:
         """
         table = fitting.read_table(data, max_bytes=self.upload_limit_bytes, name=name, sheet=sheet)
         raw = data if table.sheet_names else None
-        return self._put(table, name or "upload", digest=_digest(data), raw=raw)
+        return self._put(table, name or "upload", sha256=file_sha256(data), raw=raw)
 
     def load_upload(self, contents: str, filename: str | None) -> DatasetInfo:
         """Decode a ``dcc.Upload`` data URL (size checked first) and store its table."""
@@ -517,7 +517,7 @@ class FitService:
         """Read a file on this machine (any size) and store its table."""
         path = Path(path)
         table = fitting.read_table(path, max_bytes=max(self.upload_limit_bytes, path.stat().st_size), name=path.name)
-        return self._put(table, path.name, digest=_file_digest(path))
+        return self._put(table, path.name, sha256=file_sha256(path))
 
     def find_loaded(self, name: str, digest: str | None = None, sheet: str | None = None) -> DatasetInfo | None:
         """The most recent dataset this browser session may see that was read from a file called ``name``.
@@ -543,10 +543,11 @@ class FitService:
                 self._sample_id = self.load_path(self.sample_path).id
             return self._sample_id
 
-    def _put(self, table: Table, name: str, *, digest: str = "", raw: bytes | None = None) -> DatasetInfo:
+    def _put(self, table: Table, name: str, *, sha256: str = "", raw: bytes | None = None) -> DatasetInfo:
         # room for the table and for the column selections made from it (and a workbook's bytes)
         nbytes = 2 * int(table.frame.memory_usage(deep=True).sum()) + (len(raw) if raw else 0)
-        stored = StoredDataset(name=name, table=table, nbytes=nbytes, meta={"digest": digest, "raw": raw})
+        meta = {"sha256": sha256, "digest": sha256[:DIGEST_CHARS], "raw": raw}
+        stored = StoredDataset(name=name, table=table, nbytes=nbytes, meta=meta)
         key = self.store.put(stored)
         info = self._describe(key, stored)
         stored.meta["info"] = info
@@ -684,7 +685,7 @@ class FitService:
             train_rmse=float(sweep.train_rmse[i]),
             test_rmse=float(sweep.test_rmse[i]),
             test_rmse_se=_se(sweep, i),
-            train_r2=float(sweep.train_r2[i]),
+            train_r2=_drawn_r2(sweep, d) if sweep.test_mask is None else float(sweep.train_r2[i]),
             test_r2=float(sweep.test_r2[i]),
             warnings=tuple(view.steady.warnings_for(d)),
         )
@@ -754,22 +755,16 @@ class FitService:
         return sel, self.predict(ds_id, cols, split, degree, sel.x)
 
 
-def _digest(data: bytes) -> str:
-    """The first DIGEST_CHARS hex digits of the SHA-256 of ``data``: a short name for a file's content."""
-    return hashlib.sha256(data).hexdigest()[:DIGEST_CHARS]
-
-
-def _file_digest(path: Path) -> str:
-    h = hashlib.sha256()
-    with path.open("rb") as fh:
-        for block in iter(lambda: fh.read(1 << 20), b""):
-            h.update(block)
-    return h.hexdigest()[:DIGEST_CHARS]
-
-
 def _se(sweep: DegreeSweep, i: int) -> float:
     """The test RMSE's standard error across splits; NaN for a single holdout."""
     return float(sweep.test_rmse_se[i]) if sweep.n_splits > 1 else float("nan")
+
+
+def _drawn_r2(sweep: DegreeSweep, d: int) -> float:
+    """R² of the drawn fit (every row, folds): 1 − RSS_d / RSS_0 from its R factor, as the precise fit reports it."""
+    r = sweep.display_r
+    rss, tss = (float(np.sum(r[p:, -1] ** 2)) for p in (d + 1, 1))
+    return 1.0 - rss / tss if tss > 0 else float("nan")
 
 
 def _chart_rows(n: int) -> np.ndarray:
