@@ -160,6 +160,18 @@ def test_reading_gives_x0_interval_and_a_line_that_follows_the_degree(browser, s
         )
         page.fill("#readback-input", "40")
         wait_reading_line(page, 40.0)
+        page.fill("#readback-level", "90")  # the box is the page's interval level: the address keeps it
+        page.wait_for_function("() => document.querySelector('#readback-result thead').innerText.includes('90 %')")
+        page.wait_for_function("() => window.location.search.includes('level=90')")
+        ctx2 = browser.new_context(viewport={"width": 1500, "height": 1300})
+        try:
+            other = ctx2.new_page()
+            other.goto(page.url)  # the shared address restores the level into the box
+            other.wait_for_function(
+                "() => { const el = document.getElementById('readback-level'); return !!el && el.value === '90'; }"
+            )
+        finally:
+            ctx2.close()
         page.fill("#readback-input", "")  # clearing the readings takes the marks off the chart
         page.wait_for_function(
             "(owner) => { const gd = document.querySelector('#fit-chart .js-plotly-plot');"
@@ -176,7 +188,10 @@ def test_standards_table_and_a_failing_standard_ringed(browser, server):
         page.set_input_files("#upload input[type=file]", str(SAMPLES / "dose_response.csv"))
         wait_for_title(page, FIT, "absorbance")
         set_degree(page, 2)  # the quadratic misses the low doses of this curve that levels off
-        page.wait_for_selector("#standards-table tbody tr")
+        page.wait_for_function(
+            "() => document.querySelectorAll('#standards-table tbody tr').length === 30"
+            " && document.getElementById('standards-note').innerText.includes('degree 2 fit')"
+        )
         rows = page.locator("#standards-table tbody tr")
         assert rows.count() == 30
         assert "blank" in page.inner_text("#standards-table").lower() or "not judged" in page.inner_text(

@@ -398,3 +398,14 @@ def test_a_blank_that_does_not_read_back_still_says_it_is_a_blank(fit_service):
     out = standards.on_standards(fit_service, "none", 15, 20, key, 1)
     first = [page_text(c) for c in out["table"].children[1].children[0].children]
     assert first[5] == text.NOT_JUDGED and first[6].startswith("Blank (x = 0): not judged.")
+
+
+def test_the_level_box_is_the_page_level_and_follows_the_address():
+    """A valid level typed becomes the page's level (ids.INTERVAL_LEVEL); the address's level fills the box."""
+    assert readback.on_level_box(90, 95) == {"level": 90.0}
+    assert readback.on_level_box(95, 95)["level"] is readback.no_update
+    assert readback.on_level_box(120, 95)["level"] is readback.no_update  # refused: the read-back says why
+    assert readback.on_level_box(None, 90) == {"level": 95.0}  # an emptied box means the default
+    assert readback.on_level_page(99, 95) == {"box": 99}
+    assert readback.on_level_page(95, 95)["box"] is readback.no_update
+    assert readback.on_level_page(None, 95)["box"] is readback.no_update

@@ -2,7 +2,8 @@
 
 The user types readings y0 (each the mean of k readings; typed with the file's decimal mark, as
 in the prediction box) and gets x0, its calibration interval at the chosen level (NIST/SEMATECH
-e-Handbook 4.5.2.1), u(x0) and every warning in words. The fit is the precise fit on every
+e-Handbook 4.5.2.1), u(x0) and every warning in words. The level box is the page's interval level
+(``ids.INTERVAL_LEVEL``, which the address keeps). The fit is the precise fit on every
 usable row with the weighting chosen in the standards panel (``app/views_calibration.py``).
 
 The readings are marked on the fit chart: a dashed line at each y0 and the interval shaded
@@ -16,7 +17,7 @@ on screen (``LIVE_TEXTS_JS``; the standards panel's patch does the same).
 
 from __future__ import annotations
 
-from dash import Input, Output, State, dcc, html
+from dash import Input, Output, State, dcc, html, no_update
 
 import fitting
 
@@ -140,6 +141,33 @@ def _on_error(exc: Exception) -> dict:
     return out
 
 
+# the level box is the page's interval level control: it writes ids.INTERVAL_LEVEL (which the
+# address keeps) and follows it when the address restores a view
+
+LEVEL_TO_PAGE = dict(level=Output(ids.INTERVAL_LEVEL, "data", allow_duplicate=True))
+LEVEL_TO_PAGE_INPUTS = dict(box=Input(ids.READBACK_LEVEL, "value"))
+LEVEL_TO_PAGE_STATE = dict(level=State(ids.INTERVAL_LEVEL, "data"))
+LEVEL_FROM_PAGE = dict(box=Output(ids.READBACK_LEVEL, "value"))
+LEVEL_FROM_PAGE_INPUTS = dict(level=Input(ids.INTERVAL_LEVEL, "data"))
+LEVEL_FROM_PAGE_STATE = dict(box=State(ids.READBACK_LEVEL, "value"))
+
+
+def on_level_box(box, level) -> dict:
+    """A valid level typed in the box becomes the page's level; a refused one is explained by the read-back."""
+    try:
+        pct = round(cal.check_level(box) * 100, 6)
+    except fitting.DegreescopeError:
+        return dict(level=no_update)
+    return dict(level=no_update if level is not None and float(level) == pct else pct)
+
+
+def on_level_page(level, box) -> dict:
+    """The box shows the page's level (as the address restored it)."""
+    if level is None:
+        return dict(box=no_update)
+    return dict(box=no_update if box is not None and box != "" and float(box) == float(level) else level)
+
+
 def register(app, service: FitService) -> None:
     """Wire the read-back and the clientside merge of its marks into the fit chart."""
     app.callback(output=OUTPUT, inputs=INPUTS, on_error=_on_error)(
@@ -147,6 +175,12 @@ def register(app, service: FitService) -> None:
             service, readings, count, level, weighting, key, degree
         )
     )
+    app.callback(
+        output=LEVEL_TO_PAGE, inputs=LEVEL_TO_PAGE_INPUTS, state=LEVEL_TO_PAGE_STATE, prevent_initial_call=True
+    )(on_level_box)
+    app.callback(
+        output=LEVEL_FROM_PAGE, inputs=LEVEL_FROM_PAGE_INPUTS, state=LEVEL_FROM_PAGE_STATE, prevent_initial_call=True
+    )(on_level_page)
     app.clientside_callback(
         MERGE_SHAPES_JS,
         Output(ids.FIT_CHART, "figure", allow_duplicate=True),
