@@ -5,8 +5,9 @@ Plain functions of the ``FitService`` and the page's settings; the panels
 
 The fit read through is the model a user takes away at the degree on screen: the precise fit
 (``fitting.fit_polynomial``) on every usable row of the chosen columns, whatever split the
-charts show, with the named weighting the user picked (or the weights column). It is cached
-per (service, dataset, columns, degree, weighting). The engine does the work:
+charts show, with the named weighting the user picked (or the weights column). Without a named
+weighting it is ``views_model.handover_fit`` itself, the fit the model card and the downloads
+hand over; with one it is cached here per (service, dataset, columns, degree, weighting). The engine does the work:
 ``fitting.read_back`` (NIST/SEMATECH e-Handbook 4.5.2.1 calibration interval, u(x0) by the
 delta method), ``fitting.back_calculate`` (FDA 2018 / ICH M10 acceptance by default) and
 ``fitting.compare_weightings`` (Almeida et al. 2002).
@@ -26,7 +27,7 @@ import numpy as np
 import fitting
 from fitting import BackCalculation, FitError, PolynomialFit, ReadBack, WeightingComparison
 
-from . import text
+from . import text, views_model
 from .service import Columns, FitService, SplitSettings, clamp_degree
 
 __all__ = [
@@ -219,18 +220,14 @@ def calibration_fit(service: FitService, ds: str, cols: Columns, split: SplitSet
         raise FitError(text.weights_and_rule(str(cols.weights), rule))
 
     def make() -> CalibrationModel:
-        fitting.weights_for(rule, sel.x, sel.y, rows=sel.line_numbers)  # names the lines it is undefined on
-        fit = fitting.fit_polynomial(
-            sel.x,
-            sel.y,
-            d,
-            weights=sel.weights,
-            weighting=None if sel.weights is not None else rule,
-            x_name=sel.x_name,
-            y_name=sel.y_name,
-            x_unit=sel.x_unit,
-            y_unit=sel.y_unit,
-        )
+        if rule == "none":  # the hand-over model itself, the one the model card and the downloads show
+            fit = views_model.handover_fit(service, ds, cols, d)
+        else:
+            fitting.weights_for(rule, sel.x, sel.y, rows=sel.line_numbers)  # names the lines it is undefined on
+            fit = fitting.fit_polynomial(
+                sel.x, sel.y, d, weighting=rule,
+                x_name=sel.x_name, y_name=sel.y_name, x_unit=sel.x_unit, y_unit=sel.y_unit,
+            )  # fmt: skip
         used = "column" if sel.weights is not None else rule
         x_label = text.axis_label(sel.x_name, sel.x_unit)
         y_label = text.axis_label(sel.y_name, sel.y_unit)

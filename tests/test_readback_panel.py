@@ -409,3 +409,15 @@ def test_the_level_box_is_the_page_level_and_follows_the_address():
     assert readback.on_level_page(99, 95) == {"box": 99}
     assert readback.on_level_page(95, 95)["box"] is readback.no_update
     assert readback.on_level_page(None, 95)["box"] is readback.no_update
+
+
+def test_without_a_named_weighting_the_hand_over_model_is_read_through(pontius):
+    """The read-back reads through the very fit the model card and the downloads hand over."""
+    from app import views_model
+    from app.panels.settings import from_key
+
+    service, key, _ = pontius
+    ds, cols, split = from_key(key)
+    model = cal.calibration_fit(service, ds, cols, split, 2, "none")
+    assert model.fit is views_model.handover_fit(service, ds, cols, 2)
+    assert cal.calibration_fit(service, ds, cols, split, 2, "1/x").fit is not model.fit
