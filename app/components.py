@@ -134,7 +134,8 @@ def evidence_table(view, shown: int | None) -> html.Table:
     ev = view.evidence
     lof = ev.has_lack_of_fit
     degs = view.shown_degrees(shown)
-    best = (_lowest(ev.aic), _lowest(ev.bic))
+    at = [ev.index(d) for d in degs]
+    best = (_lowest(ev.aic[i] for i in at), _lowest(ev.bic[i] for i in at))
     head = ("degree", "CV test RMSE ± SE")
     if lof:
         head += ("lack-of-fit F", "df (lack of fit, pure error)", "lack-of-fit p")
