@@ -207,6 +207,7 @@ def stability_figure(st) -> dict:
         ],
         layout=dict(
             margin=dict(l=50, r=10, t=10, b=40),
+            bargap=0.45,
             xaxis=dict(title=dict(text=x_title), type="category"),
             yaxis=dict(title=dict(text=y_title), range=[0, 105]),
             paper_bgcolor="#fffdf8",
