@@ -181,8 +181,19 @@ def _cached(service: FitService, key: tuple, make: Callable[[], object]):
 # the rows in use and the verdict on them
 
 
+def _carries_exclusions(cols: Columns) -> bool:
+    """True once ``Columns`` has the ``excluded`` field (the service then leaves the rows out itself)."""
+    return any(f.name == "excluded" for f in dataclasses.fields(cols))
+
+
+def base_columns(cols: Columns) -> Columns:
+    """``cols`` with no row left out."""
+    return dataclasses.replace(cols, excluded=()) if _carries_exclusions(cols) else cols
+
+
 def selection(service: FitService, ds: str, cols: Columns, excluded: tuple[int, ...] = ()) -> Selection:
     """The rows in use: the service's selection without the rows left out; FitError below MIN_ROWS."""
+    cols = base_columns(cols)
 
     def make():
         sel = exclude_lines(service.selection(ds, cols), excluded)
@@ -194,9 +205,12 @@ def selection(service: FitService, ds: str, cols: Columns, excluded: tuple[int, 
 
 
 def verdict(service: FitService, ds: str, cols: Columns, excluded: tuple[int, ...] = ()) -> DegreeSweep:
-    """The verdict sweep (the engine's one rule) on the rows in use."""
+    """The verdict sweep (the engine's one rule) on the rows in use (the service's own when it leaves rows out)."""
+    cols = base_columns(cols)
     if not excluded:
         return service.steady_sweep(ds, cols)
+    if _carries_exclusions(cols):
+        return service.steady_sweep(ds, dataclasses.replace(cols, excluded=tuple(excluded)))
 
     def make():
         sel = selection(service, ds, cols, excluded)
@@ -243,6 +257,7 @@ def _mandel(sel: Selection) -> tuple[fitting.MandelResult | None, str | None]:
 
 def evidence_view(service: FitService, ds: str, cols: Columns, excluded: tuple[int, ...] = ()) -> EvidenceView:
     """Lack of fit, added-term tests, AIC and BIC per degree, the verdict and Mandel's test (cached)."""
+    cols = base_columns(cols)
 
     def make():
         sel = selection(service, ds, cols, excluded)
@@ -269,6 +284,7 @@ def evidence_view(service: FitService, ds: str, cols: Columns, excluded: tuple[i
 
 def stability(service: FitService, ds: str, cols: Columns, excluded: tuple[int, ...] = ()):
     """How often the verdict comes out the same over STABILITY_DRAWS redraws of the folds (cached; seconds)."""
+    cols = base_columns(cols)
 
     def make():
         sel = selection(service, ds, cols, excluded)
@@ -281,6 +297,7 @@ def stability(service: FitService, ds: str, cols: Columns, excluded: tuple[int, 
 
 def influence(service: FitService, ds: str, cols: Columns, degree: int, excluded: tuple[int, ...] = ()):
     """Influence of every row in use on the degree-``degree`` fit of all of them (cached)."""
+    cols = base_columns(cols)
 
     def make():
         sel = selection(service, ds, cols, excluded)
@@ -326,7 +343,7 @@ def flagged_rows(inf) -> list[FlaggedRow]:
 
 def line_at(service: FitService, ds: str, cols: Columns, x: float, y: float) -> int | None:
     """The file line of the row at (x, y) among the columns' usable rows (the first when several), or None."""
-    sel = service.selection(ds, cols)
+    sel = service.selection(ds, base_columns(cols))
     if sel.line_numbers is None:
         return None
     hit = np.nonzero((sel.x == float(x)) & (sel.y == float(y)))[0]
@@ -340,7 +357,7 @@ def check_line(service: FitService, ds: str, cols: Columns, line, excluded: tupl
         raise FitError(text.not_a_line(line))
     if n in excluded:
         raise FitError(text.already_left_out(n))
-    sel = service.selection(ds, cols)
+    sel = service.selection(ds, base_columns(cols))
     if sel.line_numbers is None or n not in set(int(v) for v in sel.line_numbers):
         raise FitError(text.not_a_row(n))
     if len(excluded) >= MAX_EXCLUDED:
