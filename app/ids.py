@@ -105,3 +105,4 @@ RING_FIT = "ring-fit"  # dcc.Store: the ring trace last appended to the fit char
 RING_RESIDUAL = "ring-residual"  # dcc.Store: the ring trace last appended to the residual chart
 RING_META = "evidence-ring"  # the meta tag of the ring traces
 STABILITY_STATUS = "stability-status"  # "computing…" while the redraws run
+STABILITY_GO = "stability-go"  # dcc.Store: a count written (clientside) once the settings have rested

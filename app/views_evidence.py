@@ -141,24 +141,40 @@ def exclude_lines(sel: Selection, lines) -> Selection:
 
 
 class _Cache:
-    """A small least-recently-used cache (thread-safe; a value may be computed twice, harmlessly)."""
+    """A small least-recently-used cache, thread-safe; a value being computed is waited for, not computed again
+    (verdict stability takes seconds of both cores: two pages asking at once must not double that)."""
 
     def __init__(self, size: int = 32):
         self.size = size
         self._d: OrderedDict = OrderedDict()
         self._lock = threading.Lock()
+        self._pending: dict = {}
 
-    def get(self, key, make: Callable[[], object]):
+    def _hit(self, key):
         with self._lock:
             if key in self._d:
                 self._d.move_to_end(key)
-                return self._d[key]
-        value = make()
-        with self._lock:
-            self._d[key] = value
-            while len(self._d) > self.size:
-                self._d.popitem(last=False)
-        return value
+                return True, self._d[key]
+            return False, self._pending.setdefault(key, threading.Lock())
+
+    def get(self, key, make: Callable[[], object]):
+        found, value = self._hit(key)
+        if found:
+            return value
+        with value:  # the key's own lock: one computation at a time
+            found, again = self._hit(key)
+            if found:
+                return again
+            try:
+                result = make()
+            finally:
+                with self._lock:
+                    self._pending.pop(key, None)
+            with self._lock:
+                self._d[key] = result
+                while len(self._d) > self.size:
+                    self._d.popitem(last=False)
+        return result
 
 
 _CACHES: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()

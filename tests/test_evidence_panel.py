@@ -263,3 +263,31 @@ def test_the_panel_is_on_the_page_and_stability_has_its_own_callback():
     evidence = [k for k in dash_app.callback_map if ids.EVIDENCE_TABLE in k]
     assert stability and evidence and stability != evidence  # never in the charts' or the table's callback
     assert not any(ids.STABILITY_CHART in k and ids.FIT_CHART in k for k in dash_app.callback_map)
+
+
+def test_a_value_being_computed_is_waited_for_not_computed_twice():
+    import threading
+    import time
+
+    cache, calls = ve._Cache(4), []
+
+    def make():
+        calls.append(1)
+        time.sleep(0.3)
+        return 42
+
+    threads = [threading.Thread(target=lambda: cache.get(("k",), make)) for _ in range(3)]
+    for t in threads:
+        t.start()
+    for t in threads:
+        t.join()
+    assert calls == [1] and cache.get(("k",), make) == 42
+
+
+def test_stability_waits_for_the_settings_to_rest():
+    import app
+
+    dash_app = app.create_app()
+    (key,) = [k for k in dash_app.callback_map if ids.STABILITY_CHART in k]
+    assert [i["id"] for i in dash_app.callback_map[key]["inputs"]] == [ids.STABILITY_GO]
+    assert E.STABILITY_REST_MS >= 500 and "setTimeout" in E.STABILITY_REST_JS

@@ -25,6 +25,18 @@ from ._common import PageConfig, notice_on_error, panel, whole
 from .settings import from_key, parse_query
 
 SLOT = "main"
+STABILITY_REST_MS = 800  # the stability starts once the settings have rested this long (after the charts)
+STABILITY_REST_JS = (
+    """
+async function(key, store) {
+    const me = (window.__stabilityRest = (window.__stabilityRest || 0) + 1);
+    await new Promise(function (r) { setTimeout(r, %d); });
+    if (me !== window.__stabilityRest || !key) { return window.dash_clientside.no_update; }
+    return me;
+}
+"""
+    % STABILITY_REST_MS
+)
 RING_COLOUR = "#b8002e"
 BAR_COLOUR, BAR_TOP = "#2a5d8f", "#2b8a3e"
 
@@ -104,6 +116,7 @@ def layout(cfg: PageConfig) -> html.Section:
         dcc.Store(id=ids.EXCLUSIONS),
         dcc.Store(id=ids.RING_FIT),
         dcc.Store(id=ids.RING_RESIDUAL),
+        dcc.Store(id=ids.STABILITY_GO),
         class_name="evidence",
         id="evidence",
     )
@@ -218,10 +231,12 @@ def stability_figure(st) -> dict:
 
 
 STABILITY_OUTPUT = dict(figure=Output(ids.STABILITY_CHART, "figure"), sentence=Output(ids.STABILITY_TEXT, "children"))
-STABILITY_INPUTS = dict(key=Input(ids.SPLIT_KEY, "data"), store=Input(ids.EXCLUSIONS, "data"))
+# the settings record and the exclusions go through a clientside rest (STABILITY_REST_JS) into STABILITY_GO
+STABILITY_INPUTS = dict(go=Input(ids.STABILITY_GO, "data"))
+STABILITY_STATE = dict(key=State(ids.SPLIT_KEY, "data"), store=State(ids.EXCLUSIONS, "data"))
 
 
-def on_stability(service: FitService, key, store) -> dict:
+def on_stability(service: FitService, key, store, go=None) -> dict:
     """The share of 200 fold redraws that give each degree, as bars and one sentence."""
     if not key:
         return {name: no_update for name in STABILITY_OUTPUT}
@@ -411,9 +426,17 @@ def register(app, service: FitService) -> None:
     app.callback(output=OUTPUT, inputs=INPUTS, on_error=notice_on_error(OUTPUT, "notice"))(
         lambda **kw: on_evidence(service, **kw)
     )
+    app.clientside_callback(
+        STABILITY_REST_JS,
+        Output(ids.STABILITY_GO, "data"),
+        Input(ids.SPLIT_KEY, "data"),
+        Input(ids.EXCLUSIONS, "data"),
+    )
     app.callback(
         output=STABILITY_OUTPUT,
         inputs=STABILITY_INPUTS,
+        state=STABILITY_STATE,
+        prevent_initial_call=True,
         running=[(Output(ids.STABILITY_STATUS, "children"), text.COMPUTING, "")],
         on_error=notice_on_error(STABILITY_OUTPUT, "sentence"),
     )(lambda **kw: on_stability(service, **kw))
