@@ -21,7 +21,7 @@ from dash import Patch
 from scipy import stats
 
 import fitting
-from app import edge, ids, text
+from app import edge, ids, text, views_model
 from app import views_evidence as ve
 from app.panels import charts
 from app.panels import evidence as E
@@ -171,7 +171,7 @@ def test_rings_are_appended_and_the_previous_one_removed_by_value(fit_service):
     assert [op["operation"] for op in ops] == ["Remove", "Append"] and ops[0]["params"]["value"] == ring
     ds, cols, split = charts.from_key(key)
     res = E.on_residual_ring(fit_service, "note", None, key, 1, None)["ring"]
-    fit = fit_service.model_view(ds, cols, split, 1).fit
+    fit = views_model.handover_fit(fit_service, ds, cols, 1)  # the model card's fit, drawn on the residual chart
     assert res["y"][0] == pytest.approx(32.0 - float(fit.predict([60.0])[0]))
     assert "line %{customdata[0]}" in res["hovertemplate"]
 

@@ -18,7 +18,7 @@ from dash import ALL, Input, Output, Patch, State, ctx, dcc, html, no_update
 
 from fitting import FitError
 
-from .. import components, figures, ids, text
+from .. import components, figures, ids, text, views_model
 from .. import views_evidence as ve
 from ..service import FitService
 from ._common import PageConfig, notice_on_error, panel, whole
@@ -326,13 +326,13 @@ RING_RESIDUAL_STATE = dict(
 
 
 def on_residual_ring(service: FitService, note, store, key, degree, previous) -> dict:
-    """Ring the flagged rows on the residual chart, at the residual the chart draws for them."""
+    """Ring the flagged rows on the residual chart, at the residual of the hand-over fit the chart draws."""
     if not key or whole(degree) is None:
         return {name: no_update for name in RING_RESIDUAL_OUTPUT}
     ds, cols, split, rows = _flagged(service, key, whole(degree), store)
     new = None
     if rows:
-        fit = service.model_view(ds, cols, split, whole(degree)).fit
+        fit = views_model.handover_fit(service, ds, cols, whole(degree))  # the fit the residual chart draws
         new = ring_trace(rows, [r.y - float(fit.predict([r.x])[0]) for r in rows], "residual")
     return dict(figure=ring_patch(previous, new), ring=new)
 
