@@ -228,9 +228,14 @@ def test_url_value_round_trip_and_first_load_only():
         assert ve.from_url_value(bad) == ()
     from urllib.parse import urlencode
 
-    search = "?" + urlencode({"x": "a", "out": value})
-    assert E.on_url({"id": "d1"}, search, initial=True)["store"]["rows"][0] == {"line": 12, "reason": "drift; re-run"}
-    assert E.on_url({"id": "d2"}, search, initial=False)["store"] == {"dataset": "d2", "rows": []}
+    search = "?" + urlencode({"x": "a", "sha": "abc123", "out": value})
+    first = E.on_url({"id": "d1", "sha": "abc123"}, search, initial=True)["store"]
+    assert first["rows"][0] == {"line": 12, "reason": "drift; re-run"}
+    assert E.on_url({"id": "d2", "sha": "abc123"}, search, initial=False)["store"] == {"dataset": "d2", "rows": []}
+    # another file content (or none named): line numbers would point at other rows, so nothing is left out
+    assert E.on_url({"id": "d3", "sha": "fff000"}, search, initial=True)["store"]["rows"] == []
+    no_sha = "?" + urlencode({"x": "a", "out": value})
+    assert E.on_url({"id": "d4", "sha": "abc123"}, no_sha, initial=True)["store"]["rows"] == []
 
 
 def test_click_on_a_point_fills_the_line_box(fit_service):

@@ -413,11 +413,14 @@ URL_STATE = dict(search=State(ids.URL, "search"))
 
 
 def on_url(dataset, search, initial: bool = True) -> dict:
-    """On the page's first load, the rows the URL leaves out (its ``out`` value); a new dataset starts with none."""
+    """On the page's first load, the rows the URL leaves out (its ``out`` value), only when the URL names this
+    very file content (``sha``): line numbers mean nothing in another file. A new dataset starts with none."""
     ds = dataset.get("id") if isinstance(dataset, dict) else None
     if not ds:
         return dict(store=no_update)
-    found = ve.from_url_value(parse_query(search).get("out")) if initial else ()
+    q = parse_query(search)
+    same_file = bool(q.get("sha")) and q.get("sha") == dataset.get("sha")
+    found = ve.from_url_value(q.get("out")) if initial and same_file else ()
     return dict(store=ve.to_store(ds, found))
 
 
