@@ -117,6 +117,7 @@ def intake_report(info: DatasetInfo, selection=None) -> list:
         items.append(html.Li(text.units_line(info.units)))
     return [html.H3(info.name, className="dataset-name"), html.Ul(items, className="intake-lines")]
 
+
 # ----------------------------------------------------------------------------
 # model card and predictions (the hand-over model; app/panels/model.py and predict.py)
 

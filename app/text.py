@@ -275,6 +275,7 @@ def labelled_sweep_notes(view: SplitView) -> list[str]:
         notes.append(f"{fmt_count(view.rows_dropped)} rows were left out with these columns (see the intake report).")
     return notes
 
+
 # model card, predictions and downloads (the hand-over model; app/panels/model.py,
 # predict.py, downloads.py and app/views_model.py)
 

@@ -47,8 +47,8 @@ def layout(cfg: PageConfig) -> html.Div:
 
 
 OUTPUT = dict(
+    stats=Output(ids.STATS, "children"),  # first: load tests and scripts find the callback by it
     handover=Output(ids.MODEL_HANDOVER, "children"),
-    stats=Output(ids.STATS, "children"),
     equation=Output(ids.EQUATION, "children"),
     coefficients=Output(ids.COEFFICIENTS, "children"),
     residual_figure=Output(ids.RESIDUAL_CHART, "figure"),
