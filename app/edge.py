@@ -107,6 +107,7 @@ WHOLE = Kind("a whole number", _is_whole)
 NUMBER = Kind("a finite number", _is_number)
 TEXT = Kind("text", lambda v: isinstance(v, str))
 TEXTS = Kind("a list of text", lambda v: isinstance(v, list) and all(isinstance(i, str) for i in v))
+WHOLES = Kind("a list of whole numbers", lambda v: isinstance(v, list) and all(_is_whole(i) for i in v))
 
 
 def optional(kind: Kind) -> Kind:
@@ -161,6 +162,7 @@ SPLIT_KEY_RECORD = record(
         "holdout": NUMBER,
         "folds": WHOLE,
         "seed": WHOLE,
+        "excluded": WHOLES,  # file lines the analyst left out
     },
     required=("dataset", "x", "y", "mode", "holdout", "folds", "seed"),
 )

@@ -131,14 +131,6 @@ def test_narrow_page_keeps_the_evidence_panel_inside(browser, server):
         ctx.close()
 
 
-HOOK = (
-    "the charts, the verdict and the model card refit without a row only once app/service.py's Columns carries "
-    "the rows left out (Columns.excluded, filtered by app.views_evidence.exclude_lines in FitService.selection) and "
-    "the charts panel passes the ids.EXCLUSIONS store into the settings record (panels/settings.py split_key)"
-)
-
-
-@pytest.mark.xfail(strict=True, reason=HOOK)
 def test_a_row_left_out_refits_the_verdict_charts_and_model_card(browser, server):
     ctx, page = open_page(browser, server, 1440)
     try:
