@@ -23,7 +23,20 @@ The predictions table has one row per x value and these columns, in this order:
     confidence lower 95% | confidence upper 95% | prediction lower 95% | prediction upper 95% |
     outside fitted range
 
-(the percentage follows the level). Numbers are plain numbers (Python's shortest
+(the percentage follows the level).
+
+The read-back table (``read_back_csv``, readings read back to x through the model) has
+one row per reading and these columns, in this order:
+
+    [line] | <y name> (reading) | readings averaged | <x name> (read back) |
+    calibration lower 95% | calibration upper 95% | standard uncertainty of <x name> |
+    outside calibrated range | roots in range | root values | notes
+
+(``line`` only when the readings came from a file). The x and interval cells are
+empty where there is no single answer or no bounded end inside the range; ``roots in
+range`` counts them and ``root values`` lists them ("x = 1.5; x = 3.25").
+
+In both tables numbers are plain numbers (Python's shortest
 round-trip form); a missing one is an empty cell; yes/no for the range flag. Text
 that a spreadsheet could run as a formula (it begins with = + - @, a tab or a
 carriage return) gets a leading single quote, as the OWASP guidance on CSV
@@ -55,6 +68,8 @@ __all__ = [
     "prediction_header",
     "predictions_csv",
     "provenance",
+    "read_back_csv",
+    "read_back_header",
     "term_name",
 ]
 
@@ -236,3 +251,49 @@ def predictions_csv(
             yield [float(c[i]) for c in cols] + [bool(outside[i])]
 
     return _csv_text(rows())
+
+
+# ----------------------------------------------------------------------------
+# the read-back table
+
+
+def read_back_header(x_name: str, y_name: str, level: float = 0.95, *, with_lines: bool = False) -> list[str]:
+    """The column names of the read-back table (see the module docstring)."""
+    pct = f"{float(level) * 100:g}%"
+    head = ["line"] if with_lines else []
+    return head + [
+        f"{y_name} (reading)",
+        "readings averaged",
+        f"{x_name} (read back)",
+        f"calibration lower {pct}",
+        f"calibration upper {pct}",
+        f"standard uncertainty of {x_name}",
+        "outside calibrated range",
+        "roots in range",
+        "root values",
+        "notes",
+    ]
+
+
+def _num_or_none(v: Any) -> float | None:
+    return None if v is None else float(v)
+
+
+def read_back_csv(
+    rows: Sequence[Mapping[str, Any]], *, x_name: str, y_name: str, level: float = 0.95, with_lines: bool = False
+) -> str:
+    """The read-back table as CSV text, from the rows of ``fitting.read_back(...).to_dict()``
+    (each may carry a ``line``).
+    """
+
+    def body():
+        yield read_back_header(x_name, y_name, level, with_lines=with_lines)
+        for r in rows:
+            roots = [float(v) for v in r.get("roots", [])]
+            cells = [] if not with_lines else [r.get("line")]
+            cells += [float(r["y"]), int(r.get("readings", 1))]
+            cells += [_num_or_none(r.get(k)) for k in ("x", "x_lower", "x_upper", "u_x")]
+            cells += [bool(r.get("outside_range")), len(roots), "; ".join(f"x = {v!r}" for v in roots)]
+            yield cells + [" ".join(str(w) for w in r.get("warnings", []))]
+
+    return _csv_text(body())
