@@ -12,7 +12,11 @@ The model file is ``PolynomialFit.to_dict()`` (what ``degreescope predict`` and
         "rows_used", "rows_dropped": counts,
         "rows_left_out": {reason: {"count": n, "first_lines": [file line numbers]}},
         "fitted_on": one sentence on which rows the fit used,
+        "weighting": the named weighting rule, "column", or null (not stated),
         "degreescope_version": the version that wrote the file,
+        # only when they apply:
+        "rows_excluded": {"lines": [file line numbers left out on purpose], "reason": text},
+        "back_calculation": {"summary": {...}, "rule": text, "tolerance": %, "lowest_tolerance": %},
     }
 
 Non-finite numbers are written as null (strict JSON).
@@ -136,15 +140,20 @@ def provenance(
     rows_dropped: int = 0,
     dropped: Mapping[str, Any] | None = None,
     fitted_on: str | None = None,
+    weighting: str | None = None,
+    excluded: Mapping[str, Any] | None = None,
+    back_calculation: Mapping[str, Any] | None = None,
 ) -> dict[str, Any]:
     """The ``fitted_from`` block of a model file.
 
     ``dropped`` maps each reason to a ``fitting.DropInfo`` (or its ``to_dict()``).
-    ``fitted_on`` defaults to the sentence for a fit on every usable row.
+    ``fitted_on`` defaults to the sentence for a fit on every usable row (less the rows
+    ``excluded`` on purpose: ``{"lines": [...], "reason": text}``). ``back_calculation`` is
+    the summary of the back-calculated standards.
     """
     if fitted_on is None:
-        fitted_on = f"every usable row of {file_name} ({int(rows_used):,} rows); none was held out"
-    return {
+        fitted_on = _fitted_on(file_name, int(rows_used), excluded)
+    block = {
         "file": file_name,
         "sha256": sha256,
         "x": x,
@@ -155,8 +164,26 @@ def provenance(
         "rows_dropped": int(rows_dropped),
         "rows_left_out": _left_out(dropped),
         "fitted_on": fitted_on,
+        "weighting": weighting,
         "degreescope_version": degreescope_version(),
     }
+    if excluded:
+        block["rows_excluded"] = {"lines": [int(v) for v in excluded["lines"]], "reason": excluded.get("reason")}
+    if back_calculation:
+        block["back_calculation"] = dict(back_calculation)
+    return block
+
+
+def _fitted_on(file_name: str, rows_used: int, excluded: Mapping[str, Any] | None) -> str:
+    if not excluded:
+        return f"every usable row of {file_name} ({rows_used:,} rows); none was held out"
+    lines = [int(v) for v in excluded["lines"]]
+    shown = ", ".join(str(v) for v in lines[:10]) + (" …" if len(lines) > 10 else "")
+    why = f" ({excluded['reason']})" if excluded.get("reason") else ""
+    return (
+        f"the usable rows of {file_name} ({rows_used:,} rows) except {len(lines):,} left out on purpose, "
+        f"line{'s' if len(lines) != 1 else ''} {shown}{why}; none was held out"
+    )
 
 
 def model_document(fit, fitted_from: Mapping[str, Any] | None = None) -> dict[str, Any]:
