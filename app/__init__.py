@@ -6,16 +6,17 @@
 
 Data flow: ``dcc.Upload`` -> ``service.FitService.load_upload`` -> ``store.DatasetStore``
 (server memory, keyed by an unguessable id) -> the page's ``dcc.Store`` holds only that
-id and the settings -> callbacks ask the service for cached views -> ``figures`` builds
-the charts, ``exports`` the downloads.
+id and the settings -> each panel's callbacks (``panels/``) ask the service for cached
+views -> ``figures`` builds the charts, ``components`` the tables, ``text`` the words,
+``exports`` the downloads.
 """
 
 from __future__ import annotations
 
-__all__ = ["create_app"]
+from .server import DEFAULT_UPLOAD_LIMIT_BYTES
+from .store import DEFAULT_CACHE_BYTES
 
-DEFAULT_UPLOAD_LIMIT_BYTES = 128 * 1024 * 1024
-DEFAULT_CACHE_BYTES = 1024**3
+__all__ = ["create_app"]
 
 
 def upload_max_size(upload_limit_bytes: int) -> int:
@@ -69,5 +70,4 @@ def create_app(
 
     app.layout = serve_layout
     callbacks.register(app, service)
-    app.degreescope_service = service  # for tests and benchmarks
     return app

@@ -17,7 +17,7 @@ import numpy as np
 import plotly.graph_objects as go
 from dash import Patch
 
-from . import ids
+from . import ids, text
 from .service import DegreeView, ModelView, SplitView
 
 INK = "#1c2a35"
@@ -129,159 +129,118 @@ def fit_title(view: SplitView, degree: int) -> str:
     return plot_text(f"Degree {degree} fit: {view.y_label} against {view.x_label}")
 
 
-def fit_figure(view: SplitView, dv: DegreeView, bands=(CONFIDENCE,)) -> go.Figure:
-    """Points (training and test), the display fit, its bands and the extrapolation zones."""
-    bands = set(bands or ())
-    traces: list[dict] = []
+def _point_traces(view: SplitView) -> list[dict]:
+    """Training points (filled circles, blue) and test points (open diamonds, amber)."""
     n_pts = view.train_x.size + view.test_x.size
     sc = _scatter(n_pts)
     small = n_pts <= 2000
-    traces.append(
-        sc(
-            x=view.train_x,
-            y=view.train_y,
-            mode="markers",
-            name="training",
-            marker=dict(
-                symbol="circle",
-                size=7 if small else 4,
-                color=TRAIN,
-                opacity=0.85 if small else 0.5,
-                line=dict(width=0.6, color="#ffffff") if small else dict(width=0),
-            ),
-            hovertemplate="x %{x:.6g}<br>y %{y:.6g}<extra>training</extra>",
-        )
+    train = sc(
+        x=view.train_x,
+        y=view.train_y,
+        mode="markers",
+        name="training",
+        marker=dict(
+            symbol="circle",
+            size=7 if small else 4,
+            color=TRAIN,
+            opacity=0.85 if small else 0.5,
+            line=dict(width=0.6, color="#ffffff") if small else dict(width=0),
+        ),
+        hovertemplate="x %{x:.6g}<br>y %{y:.6g}<extra>training</extra>",
     )
-    traces.append(
-        sc(
-            x=view.test_x,
-            y=view.test_y,
-            mode="markers",
-            name="test (held out)",
-            marker=dict(
-                symbol="diamond-open", size=9 if small else 5, color=TEST, line=dict(width=2 if small else 1.2)
-            ),
-            visible=True if view.has_test_points else "legendonly",
-            showlegend=view.has_test_points,
-            hovertemplate="x %{x:.6g}<br>y %{y:.6g}<extra>test</extra>",
-        )
+    test = sc(
+        x=view.test_x,
+        y=view.test_y,
+        mode="markers",
+        name="test (held out)",
+        marker=dict(symbol="diamond-open", size=9 if small else 5, color=TEST, line=dict(width=2 if small else 1.2)),
+        visible=True if view.has_test_points else "legendonly",
+        showlegend=view.has_test_points,
+        hovertemplate="x %{x:.6g}<br>y %{y:.6g}<extra>test</extra>",
     )
+    return [train, test]
+
+
+def _band_pair(grid: list, lo, hi, *, shown: bool, fill: str, name: str, lower_name: str) -> list[dict]:
+    """A band as two line traces, the upper one filled down to the lower one."""
+    common = dict(x=grid, mode="lines", line=dict(width=0), hoverinfo="skip", visible=shown)
+    return [
+        _line(y=_list(lo), showlegend=False, name=lower_name, **common),
+        _line(y=_list(hi), fill="tonexty", fillcolor=fill, name=name, **common),
+    ]
+
+
+def _curve_traces(view: SplitView, dv: DegreeView, bands: set) -> list[dict]:
+    """Prediction band, confidence band, then the curve (the order ``ids.FIT_TRACE_*`` names)."""
     g = _list(view.grid)
-    traces.append(
-        _line(
-            x=g,
-            y=_list(dv.pred_lo),
-            mode="lines",
-            line=dict(width=0),
-            hoverinfo="skip",
-            showlegend=False,
-            visible=PREDICTION in bands,
-            name="prediction band (lower)",
-        )
+    pred = _band_pair(
+        g, dv.pred_lo, dv.pred_hi, shown=PREDICTION in bands, fill=PRED_FILL,
+        name="95 % prediction", lower_name="prediction band (lower)",
+    )  # fmt: skip
+    conf = _band_pair(
+        g, dv.conf_lo, dv.conf_hi, shown=CONFIDENCE in bands, fill=CONF_FILL,
+        name="95 % confidence", lower_name="confidence band (lower)",
+    )  # fmt: skip
+    curve = _line(
+        x=g,
+        y=_list(dv.curve),
+        mode="lines",
+        name=f"degree {dv.degree} fit",
+        line=dict(color=CURVE, width=2.6),
+        hovertemplate="x %{x:.6g}<br>fit %{y:.6g}<extra></extra>",
     )
-    traces.append(
-        _line(
-            x=g,
-            y=_list(dv.pred_hi),
-            mode="lines",
-            line=dict(width=0),
-            fill="tonexty",
-            fillcolor=PRED_FILL,
-            hoverinfo="skip",
-            visible=PREDICTION in bands,
-            name="95 % prediction",
-        )
+    return [*pred, *conf, curve]
+
+
+def _extrapolation_zones(view: SplitView) -> tuple[list[dict], list[dict]]:
+    """Shaded rectangles and labels beyond the training range on either side."""
+    tlo, thi = view.training_range
+    shapes, notes = [], []
+    for a, b in ((float(view.grid[0]), tlo), (thi, float(view.grid[-1]))):
+        if b <= a:
+            continue
+        shapes.append(
+            dict(type="rect", xref="x", yref="paper", x0=a, x1=b, y0=0, y1=1, fillcolor=EXTRAP_FILL,
+                 line=dict(width=0), layer="below")
+        )  # fmt: skip
+        notes.append(
+            dict(text="extrapolation", xref="x", yref="paper", x=(a + b) / 2, y=0.98, yanchor="top",
+                 showarrow=False, textangle=-90, font=dict(size=11, color="#9a5208"))
+        )  # fmt: skip
+    return shapes, notes
+
+
+def _sample_annotation(view: SplitView) -> dict:
+    return dict(
+        text=text.sample_note(view.points_shown, view.rows_used),
+        xref="paper",
+        yref="paper",
+        x=1,
+        y=1.0,
+        xanchor="right",
+        yanchor="bottom",
+        showarrow=False,
+        font=dict(size=11, color="#44525c"),
+        bgcolor="rgba(255,253,248,0.8)",
     )
-    traces.append(
-        _line(
-            x=g,
-            y=_list(dv.conf_lo),
-            mode="lines",
-            line=dict(width=0),
-            hoverinfo="skip",
-            showlegend=False,
-            visible=CONFIDENCE in bands,
-            name="confidence band (lower)",
-        )
-    )
-    traces.append(
-        _line(
-            x=g,
-            y=_list(dv.conf_hi),
-            mode="lines",
-            line=dict(width=0),
-            fill="tonexty",
-            fillcolor=CONF_FILL,
-            hoverinfo="skip",
-            visible=CONFIDENCE in bands,
-            name="95 % confidence",
-        )
-    )
-    traces.append(
-        _line(
-            x=g,
-            y=_list(dv.curve),
-            mode="lines",
-            name=f"degree {dv.degree} fit",
-            line=dict(color=CURVE, width=2.6),
-            hovertemplate="x %{x:.6g}<br>fit %{y:.6g}<extra></extra>",
-        )
-    )
-    layout = _base_layout(fit_title(view, dv.degree), plot_text(view.x_label), plot_text(view.y_label), dv.caption)
+
+
+def fit_figure(view: SplitView, dv: DegreeView, bands=(CONFIDENCE,)) -> go.Figure:
+    """Points (training and test), the display fit, its bands and the extrapolation zones."""
+    traces = _point_traces(view) + _curve_traces(view, dv, set(bands or ()))
+    caption = text.degree_caption(view, dv)
+    layout = _base_layout(fit_title(view, dv.degree), plot_text(view.x_label), plot_text(view.y_label), caption)
     # y range from the points (not from a wild curve), with room
     ys = np.concatenate([view.train_y, view.test_y])
     ylo, yhi = float(ys.min()), float(ys.max())
     pad = 0.12 * (yhi - ylo or 1.0)
     layout["yaxis"]["range"] = [ylo - pad, yhi + pad]
     layout["xaxis"]["range"] = [float(view.grid[0]), float(view.grid[-1])]
-    tlo, thi = view.training_range
-    shapes, notes = [], []
-    for a, b in ((float(view.grid[0]), tlo), (thi, float(view.grid[-1]))):
-        if b > a:
-            shapes.append(
-                dict(
-                    type="rect",
-                    xref="x",
-                    yref="paper",
-                    x0=a,
-                    x1=b,
-                    y0=0,
-                    y1=1,
-                    fillcolor=EXTRAP_FILL,
-                    line=dict(width=0),
-                    layer="below",
-                )
-            )
-            notes.append(
-                dict(
-                    text="extrapolation",
-                    xref="x",
-                    yref="paper",
-                    x=(a + b) / 2,
-                    y=0.98,
-                    yanchor="top",
-                    showarrow=False,
-                    textangle=-90,
-                    font=dict(size=11, color="#9a5208"),
-                )
-            )
+    shapes, notes = _extrapolation_zones(view)
     layout["shapes"] = shapes
     layout["annotations"] = layout["annotations"] + notes
     if view.sampled:
-        layout["annotations"].append(
-            dict(
-                text=f"showing a random sample of {view.points_shown:,} of {view.rows_used:,} points; fits use every row",
-                xref="paper",
-                yref="paper",
-                x=1,
-                y=1.0,
-                xanchor="right",
-                yanchor="bottom",
-                showarrow=False,
-                font=dict(size=11, color="#44525c"),
-                bgcolor="rgba(255,253,248,0.8)",
-            )
-        )
+        layout["annotations"].append(_sample_annotation(view))
         layout["legend"]["y"] = 1.06
     return go.Figure(data=traces, layout=layout)
 
@@ -304,7 +263,7 @@ def fit_degree_patch(view: SplitView, dv: DegreeView, bands=(CONFIDENCE,)) -> Pa
     for i in (ids.FIT_TRACE_CONF_LO, ids.FIT_TRACE_CONF_HI):
         p["data"][i]["visible"] = CONFIDENCE in bands
     p["layout"]["title"]["text"] = fit_title(view, dv.degree)
-    p["layout"]["annotations"][0]["text"] = caption_text(dv.caption)
+    p["layout"]["annotations"][0]["text"] = caption_text(text.degree_caption(view, dv))
     return p
 
 
@@ -312,85 +271,76 @@ def error_title(view: SplitView) -> str:
     return f"Error by degree: {view.split_label}"
 
 
-def error_figure(view: SplitView, dv: DegreeView) -> go.Figure:
-    """Training and test RMSE per degree, the steady measure, the current and recommended degree."""
-    sw, st = view.sweep, view.steady
-    deg = sw.degrees.astype(int).tolist()
-    has_se = sw.n_splits > 1
-    traces: list[dict] = []
-    traces.append(
-        _line(
-            x=deg,
-            y=_list(sw.train_rmse),
-            mode="lines+markers",
-            name="training RMSE",
-            line=dict(color=TRAIN, width=2),
-            marker=dict(symbol="circle", size=7, color=TRAIN),
-            hovertemplate="degree %{x}<br>training RMSE %{y:.4g}<extra></extra>",
-        )
+def _error_traces(view: SplitView) -> list[dict]:
+    """Training RMSE, test RMSE (± SE across splits) and the verdict sweep's test RMSE, by degree."""
+    sweep, verdict = view.sweep, view.steady
+    deg = sweep.degrees.astype(int).tolist()
+    has_se = sweep.n_splits > 1
+    train = _line(
+        x=deg,
+        y=_list(sweep.train_rmse),
+        mode="lines+markers",
+        name="training RMSE",
+        line=dict(color=TRAIN, width=2),
+        marker=dict(symbol="circle", size=7, color=TRAIN),
+        hovertemplate="degree %{x}<br>training RMSE %{y:.4g}<extra></extra>",
     )
-    traces.append(
-        _line(
-            x=deg,
-            y=_list(sw.test_rmse),
-            mode="lines+markers",
-            name="test RMSE" + (" ± SE" if has_se else ""),
-            line=dict(color=TEST, width=2),
-            marker=dict(symbol="diamond-open", size=9, color=TEST, line=dict(width=2)),
-            error_y=dict(
-                type="data",
-                array=_list(np.nan_to_num(sw.test_rmse_se, nan=0.0)),
-                visible=has_se,
-                color=TEST,
-                thickness=1.3,
-                width=4,
-            ),
-            hovertemplate="degree %{x}<br>test RMSE %{y:.4g}<extra></extra>",
-        )
+    se = _list(np.nan_to_num(sweep.test_rmse_se, nan=0.0))
+    test = _line(
+        x=deg,
+        y=_list(sweep.test_rmse),
+        mode="lines+markers",
+        name="test RMSE" + (" ± SE" if has_se else ""),
+        line=dict(color=TEST, width=2),
+        marker=dict(symbol="diamond-open", size=9, color=TEST, line=dict(width=2)),
+        error_y=dict(type="data", array=se, visible=has_se, color=TEST, thickness=1.3, width=4),
+        hovertemplate="degree %{x}<br>test RMSE %{y:.4g}<extra></extra>",
     )
-    sdeg = st.degrees.astype(int).tolist()
-    traces.append(
-        _line(
-            x=sdeg,
-            y=_list(st.test_rmse),
-            mode="lines",
-            name="verdict CV (test)",
-            line=dict(color=STEADY, width=1.6, dash="dash"),
-            hovertemplate="degree %{x}<br>steady CV RMSE %{y:.4g}<extra></extra>",
-        )
+    steady = _line(
+        x=verdict.degrees.astype(int).tolist(),
+        y=_list(verdict.test_rmse),
+        mode="lines",
+        name="verdict CV (test)",
+        line=dict(color=STEADY, width=1.6, dash="dash"),
+        hovertemplate="degree %{x}<br>steady CV RMSE %{y:.4g}<extra></extra>",
     )
-    cur_y = _current_y(view, dv.degree)
-    traces.append(
-        _line(
-            x=[dv.degree],
-            y=[cur_y],
-            mode="markers",
-            name="current",
-            marker=dict(symbol="circle-open", size=20, color=HIGHLIGHT, line=dict(width=3)),
-            hoverinfo="skip",
-        )
+    return [train, test, steady]
+
+
+def _degree_markers(view: SplitView, dv: DegreeView) -> list[dict]:
+    """The current degree (a ring on its test RMSE) and the recommended one (a star on the verdict's)."""
+    current = _line(
+        x=[dv.degree],
+        y=[_current_y(dv)],
+        mode="markers",
+        name="current",
+        marker=dict(symbol="circle-open", size=20, color=HIGHLIGHT, line=dict(width=3)),
+        hoverinfo="skip",
     )
     rec = view.recommended_degree
-    rec_y = _steady_y(view, rec)
-    traces.append(
-        _line(
-            x=[rec],
-            y=[rec_y],
-            mode="markers+text",
-            name="recommended",
-            marker=dict(symbol="star", size=16, color="#2b8a3e", line=dict(width=1, color="#ffffff")),
-            text=[f"recommended {rec}"],
-            textposition="top center",
-            textfont=dict(color="#2b8a3e", size=12),
-            hoverinfo="skip",
-        )
+    recommended = _line(
+        x=[rec],
+        y=[_steady_y(view, rec)],
+        mode="markers+text",
+        name="recommended",
+        marker=dict(symbol="star", size=16, color="#2b8a3e", line=dict(width=1, color="#ffffff")),
+        text=[f"recommended {rec}"],
+        textposition="top center",
+        textfont=dict(color="#2b8a3e", size=12),
+        hoverinfo="skip",
     )
-    caption = dv.caption
-    layout = _base_layout(error_title(view), "polynomial degree", _rmse_title(view), caption)
+    return [current, recommended]
+
+
+def error_figure(view: SplitView, dv: DegreeView) -> go.Figure:
+    """Training and test RMSE per degree, the verdict sweep, the current and recommended degree."""
+    traces = _error_traces(view) + _degree_markers(view, dv)
+    layout = _base_layout(error_title(view), "polynomial degree", _rmse_title(view), text.degree_caption(view, dv))
     layout["yaxis"].update(
         type="log", dtick=1, minor=dict(ticks="inside", ticklen=4, showgrid=True, gridcolor="#f1eee7")
     )
-    layout["xaxis"].update(dtick=1 if len(deg) <= 13 else 2, range=[-0.5, max(deg) + 0.5])
+    deg = view.sweep.degrees.astype(int)
+    layout["xaxis"].update(dtick=1 if deg.size <= 13 else 2, range=[-0.5, int(deg.max()) + 0.5])
     layout["shapes"] = [_degree_band(dv.degree)]
     return go.Figure(data=traces, layout=layout)
 
@@ -398,9 +348,9 @@ def error_figure(view: SplitView, dv: DegreeView) -> go.Figure:
 def error_degree_patch(view: SplitView, dv: DegreeView) -> Patch:
     p = Patch()
     p["data"][ids.ERR_TRACE_CURRENT]["x"] = [dv.degree]
-    p["data"][ids.ERR_TRACE_CURRENT]["y"] = [_current_y(view, dv.degree)]
+    p["data"][ids.ERR_TRACE_CURRENT]["y"] = [_current_y(dv)]
     p["layout"]["shapes"][0] = _degree_band(dv.degree)
-    p["layout"]["annotations"][0]["text"] = caption_text(dv.caption)
+    p["layout"]["annotations"][0]["text"] = caption_text(text.degree_caption(view, dv))
     return p
 
 
@@ -419,17 +369,19 @@ def _degree_band(d: int) -> dict:
     )
 
 
-def _current_y(view: SplitView, d: int) -> float:
-    v = float(view.sweep.test_rmse[view.sweep.index(d)])
-    if not np.isfinite(v):
-        v = float(np.nanmin(view.sweep.test_rmse))
-    return v
+def _gap(v: float) -> float | None:
+    """A y value for plotly: a missing (non-finite) value is drawn as a gap, never moved."""
+    return v if np.isfinite(v) else None
 
 
-def _steady_y(view: SplitView, d: int) -> float:
-    st = view.steady
-    hits = np.nonzero(st.degrees == d)[0]
-    return float(st.test_rmse[hits[0]]) if hits.size else float(np.nanmin(st.test_rmse))
+def _current_y(dv: DegreeView) -> float | None:
+    """The current degree's marker sits on the degree view's test RMSE (a gap when it is missing)."""
+    return _gap(dv.test_rmse)
+
+
+def _steady_y(view: SplitView, d: int) -> float | None:
+    """The recommended degree's marker sits on the verdict sweep's test RMSE there (a gap when missing)."""
+    return _gap(view.verdict_test_rmse(d))
 
 
 def _rmse_title(view: SplitView) -> str:
@@ -465,10 +417,7 @@ def residual_figure(view: SplitView, model: ModelView) -> go.Figure:
         f"Residuals at degree {model.fit.degree}",
         plot_text(view.x_label),
         plot_text(f"residual{unit}"),
-        (
-            "y − fitted value" + ("; a random sample of the points is shown." if model.residual_sampled else "."),
-            f"The fit used {model.fitted_rows}.",
-        ),
+        text.residual_caption(model),
     )
     layout["margin"] = dict(l=72, r=24, t=64, b=100)
     layout["shapes"] = [

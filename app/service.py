@@ -14,12 +14,13 @@ Costs and caches (per dataset id):
   table, residuals and exports. Cached per (dataset, columns, split, degree); it is
   computed in its own callback, off the chart's critical path.
 
-The steady measure
-------------------
+The verdict
+-----------
 A single holdout of a small dataset is a noisy judge of degree. The recommendation
-and the overfitting warning therefore always come from 10-fold cross-validation,
-repeated 5 times when the data are small (grouped folds when a group column is
-chosen), whatever split the charts show.
+and the overfitting warning therefore always come from the engine's one rule,
+``fitting.verdict_sweep`` (10-fold cross-validation, repeated 5 times up to 5,000 rows;
+one group held out at a time with a group column; whole x levels held out when x has
+replicates), whatever split the charts show. ``degreescope sweep`` calls the same rule.
 """
 
 from __future__ import annotations
@@ -32,19 +33,21 @@ import threading
 from collections import OrderedDict
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, Callable
+from typing import Callable, NamedTuple
 
 import numpy as np
 from scipy.special import stdtrit
 
 import fitting
-from fitting import DegreescopeError, FitError
+from fitting import MAX_DEGREE, MAX_SEED, DegreeSweep, FitError, PolynomialFit, Selection, Table
 
+from . import text
 from .store import DatasetStore, StoredDataset
 
 __all__ = [
     "Columns",
     "SplitSettings",
+    "Refusal",
     "FitService",
     "DatasetInfo",
     "SplitView",
@@ -52,18 +55,22 @@ __all__ = [
     "ModelView",
     "PredictionView",
     "SAMPLE_PATH",
+    "MAX_PREDICT_VALUES",
+    "MAX_PREDICT_CHARS",
+    "clamp_degree",
+    "decode_upload",
     "parse_x_values",
 ]
 
 SAMPLE_PATH = Path(__file__).resolve().parent.parent / "sample_data" / "sensor_calibration.csv"
-MAX_DEGREE = 20
 MAX_POINTS = 20_000  # points drawn on the chart; fits always use every row
 GRID_POINTS = 400
 PAD = 0.06  # share of the x range drawn beyond the data on each side
-STEADY_FOLDS = 10
-STEADY_REPEATS_SMALL = 5  # repeated 10-fold CV below STEADY_SMALL_ROWS rows
-STEADY_SMALL_ROWS = 5_000
 MAX_PREDICT_VALUES = 1_000
+MAX_PREDICT_CHARS = 40 * MAX_PREDICT_VALUES  # checked before the text is split
+HOLDOUT_RANGE = (10, 50)  # per cent
+FOLDS_RANGE = (2, 50)
+SPLIT_MODES = ("holdout", "ordered", "kfold")
 
 
 # ----------------------------------------------------------------------------
@@ -72,10 +79,37 @@ MAX_PREDICT_VALUES = 1_000
 
 @dataclass(frozen=True)
 class Columns:
+    """The columns a fit uses: x, y and the optional weights and group columns."""
+
     x: str
     y: str
     weights: str | None = None
     group: str | None = None
+
+
+class Refusal(NamedTuple):
+    """A split setting the page refused: the setting, what was typed, what is used instead, the rule."""
+
+    setting: str
+    typed: object
+    used: object
+    rule: str
+
+
+def _finite_number(value) -> float | None:
+    """``value`` as a finite float, or None for non-numbers, NaN and infinities."""
+    if isinstance(value, bool):
+        return None
+    try:
+        v = float(value)
+    except (TypeError, ValueError, OverflowError):
+        return None
+    return v if math.isfinite(v) else None
+
+
+def _whole_in(value, lo: int, hi: int) -> int | None:
+    v = _finite_number(value)
+    return int(v) if v is not None and v == int(v) and lo <= v <= hi else None
 
 
 @dataclass(frozen=True)
@@ -89,33 +123,49 @@ class SplitSettings:
 
     @staticmethod
     def parse(mode, holdout, folds, seed) -> SplitSettings:
-        mode = mode if mode in ("holdout", "ordered", "kfold") else "holdout"
-        try:
-            frac = float(holdout)
-        except (TypeError, ValueError):
-            raise FitError("The holdout share must be a number between 10 and 50 (per cent).") from None
-        if frac > 1:  # the page gives per cent
+        """Strict: FitError names the first setting out of range (holdout in per cent or as a fraction)."""
+        settings, refused = SplitSettings.coerce(mode, holdout, folds, seed)
+        if refused:
+            r = refused[0]
+            if r.setting == "holdout":
+                raise FitError(f"The holdout share must be between 10 % and 50 %, not {text.echo(r.typed)} %.")
+            if r.setting == "folds":
+                raise FitError(f"Use between 2 and 50 folds, not {text.echo(r.typed)}; 5 or 10 are common.")
+            raise FitError(f"The seed must be a whole number from 0 to {MAX_SEED}, not {text.echo(r.typed)}.")
+        return settings
+
+    @staticmethod
+    def coerce(mode, holdout, folds, seed) -> tuple[SplitSettings, tuple[Refusal, ...]]:
+        """Settings from the page, each refused value replaced by the nearest allowed one, and the refusals."""
+        refused = []
+        frac = _finite_number(holdout)
+        if frac is not None and frac > 1:  # the page gives per cent
             frac /= 100.0
-        if not (0.10 - 1e-9 <= frac <= 0.50 + 1e-9):
-            raise FitError(f"The holdout share must be between 10 % and 50 %, not {frac:.0%}.")
-        try:
-            k = int(folds)
-            s = int(seed)
-        except (TypeError, ValueError):
-            raise FitError("The number of folds and the seed must be whole numbers.") from None
-        if not (2 <= k <= 50):
-            raise FitError(f"Use between 2 and 50 folds, not {k}; 5 or 10 are common.")
-        if s < 0:
-            raise FitError("The seed must be 0 or a positive whole number.")
-        return SplitSettings(mode=mode, holdout=round(frac, 4), folds=k, seed=s)
+        if frac is None or not (0.10 - 1e-9 <= frac <= 0.50 + 1e-9):
+            frac = min(0.5, max(0.1, frac)) if frac is not None else 0.25
+            refused.append(Refusal("holdout", holdout, round(frac * 100), "10 to 50 per cent"))
+        k = _whole_in(folds, *FOLDS_RANGE)
+        if k is None:
+            v = _finite_number(folds)
+            k = 10 if v is None else int(min(FOLDS_RANGE[1], max(FOLDS_RANGE[0], v)))
+            refused.append(Refusal("folds", folds, k, "use 2 to 50 folds"))
+        s = _whole_in(seed, 0, MAX_SEED)
+        if s is None:
+            v = _finite_number(seed)
+            s = 0 if v is None else int(min(MAX_SEED, max(0, v)))
+            refused.append(Refusal("seed", seed, s, f"a whole number from 0 to {MAX_SEED}"))
+        mode = mode if mode in SPLIT_MODES else "holdout"
+        return SplitSettings(mode=mode, holdout=round(frac, 4), folds=k, seed=s), tuple(refused)
 
 
 # ----------------------------------------------------------------------------
-# views (plain data for figure builders, tables and exports)
+# views (numbers for figure builders, tables and exports; the words are in app/text.py)
 
 
 @dataclass(frozen=True)
 class DatasetInfo:
+    """What the page knows of a stored dataset (the data stay on the server)."""
+
     id: str
     name: str
     columns: tuple[str, ...]
@@ -125,8 +175,10 @@ class DatasetInfo:
     report_lines: tuple[str, ...]
     units: dict[str, str]
     rows: int
+    decimal: str = "."
 
     def to_store(self) -> dict:
+        """The record held in the page's ``dcc.Store``: ids, names and the file's decimal mark, no data."""
         return {
             "id": self.id,
             "name": self.name,
@@ -134,15 +186,18 @@ class DatasetInfo:
             "numeric": list(self.numeric_columns),
             "x": self.default_x,
             "y": self.default_y,
+            "decimal": self.decimal,
         }
 
 
 @dataclass(frozen=True, eq=False)
 class SplitView:
+    """The chosen split's sweep, the verdict sweep and the points on the chart."""
+
     columns: Columns
     split: SplitSettings
-    x_label: str
-    y_label: str
+    x_name: str
+    y_name: str
     x_unit: str | None
     y_unit: str | None
     rows_used: int
@@ -160,19 +215,46 @@ class SplitView:
     training_range: tuple[float, float]
     grid: np.ndarray
     # sweeps
-    sweep: Any  # the chosen split's DegreeSweep
-    steady: Any  # the DegreeSweep the verdict rests on
+    sweep: DegreeSweep  # the chosen split's sweep
+    steady: DegreeSweep  # the verdict sweep the recommendation rests on
     max_degree: int
-    split_label: str
-    steady_label: str
 
     @property
     def recommended_degree(self) -> int:
+        """The verdict sweep's recommended degree."""
         return int(self.steady.recommended_degree)
+
+    @property
+    def x_label(self) -> str:
+        """The x axis title: name and unit."""
+        return text.axis_label(self.x_name, self.x_unit)
+
+    @property
+    def y_label(self) -> str:
+        """The y axis title: name and unit."""
+        return text.axis_label(self.y_name, self.y_unit)
+
+    @property
+    def split_label(self) -> str:
+        """The chosen split as the engine's sweep names it (its ``scheme``)."""
+        return self.sweep.scheme
+
+    @property
+    def steady_label(self) -> str:
+        """What the recommendation rests on: the engine's rule sentence, naming the group column if any."""
+        if self.columns.group is not None or not self.steady.verdict_rule:
+            return text.verdict_label(self.steady.scheme, self.columns.group, self.steady.n_splits)
+        return self.steady.verdict_rule
+
+    def verdict_test_rmse(self, degree: int) -> float:
+        """The verdict sweep's test RMSE at ``degree`` (NaN when it failed there)."""
+        return float(self.steady.test_rmse[self.steady.index(degree)])
 
 
 @dataclass(frozen=True, eq=False)
 class DegreeView:
+    """The display fit at one degree: curve and bands on the view's grid, and the sweep's numbers there."""
+
     degree: int
     curve: np.ndarray
     conf_lo: np.ndarray
@@ -181,31 +263,69 @@ class DegreeView:
     pred_hi: np.ndarray
     train_rmse: float
     test_rmse: float
-    test_rmse_se: float
+    test_rmse_se: float  # NaN for a single holdout
     train_r2: float
     test_r2: float
     warnings: tuple[str, ...]
-    caption: tuple[str, str]  # two lines of plain text
 
 
 @dataclass(frozen=True, eq=False)
 class ModelView:
-    fit: Any  # fitting.PolynomialFit
-    coefficient_rows: list[dict]
-    equation: str
+    """The precise fit at one degree, its t quantile, the residuals of the chart's points and the test numbers."""
+
+    fit: PolynomialFit
     t_quantile: float
     residual_x: np.ndarray
     residuals: np.ndarray
     residual_sampled: bool
-    fitted_on: str
-    fitted_rows: str
+    every_row: bool  # False: the fit used the training rows of a holdout
+    split_label: str
+    x_unit: str | None
+    y_unit: str | None
     test_rmse: float
     test_rmse_se: float
     test_r2: float
 
+    @property
+    def equation(self) -> str:
+        """The fit in the power basis, original units, 8 significant digits."""
+        return self.fit.equation(digits=8, x="x", y="y")
+
+    @property
+    def coefficient_rows(self) -> list[dict]:
+        """One dict per power: term, power, coefficient, se, ci_lo, ci_hi (Student's t, 95 %) and unit."""
+        q = self.t_quantile
+        rows = []
+        for k, (c, se) in enumerate(zip(self.fit.coefficients, self.fit.standard_errors, strict=True)):
+            half = q * se if np.isfinite(q) else float("nan")
+            rows.append(
+                {
+                    "term": text.term_name(k),
+                    "power": k,
+                    "coefficient": float(c),
+                    "se": float(se),
+                    "ci_lo": float(c - half),
+                    "ci_hi": float(c + half),
+                    "unit": text.coefficient_unit(self.x_unit, self.y_unit, k),
+                }
+            )
+        return rows
+
+    @property
+    def fitted_on(self) -> str:
+        """Which rows the fit used, in words (read by app/exports.py; the sentence lives in app/text.py)."""
+        return text.fitted_on(self)
+
+    @property
+    def fitted_rows(self) -> str:
+        """The rows the fit used, short (the words live in app/text.py)."""
+        return text.fitted_rows(self)
+
 
 @dataclass(frozen=True, eq=False)
 class PredictionView:
+    """Predictions and 95 % bands at typed (or data) x values, and which lie outside the fitted range."""
+
     x: np.ndarray
     y: np.ndarray
     conf_lo: np.ndarray
@@ -225,14 +345,12 @@ class _LRU:
         self.maxsize = maxsize
         self._d: OrderedDict = OrderedDict()
         self._lock = threading.Lock()
-        self.hits = 0
         self.misses = 0
 
-    def get_or_make(self, key, make: Callable[[], Any]):
+    def get_or_make(self, key, make: Callable[[], object]):
         with self._lock:
             if key in self._d:
                 self._d.move_to_end(key)
-                self.hits += 1
                 return self._d[key]
             self.misses += 1
         value = make()  # outside the lock: another thread may compute the same; harmless
@@ -245,23 +363,7 @@ class _LRU:
 
 
 # ----------------------------------------------------------------------------
-# intake
-
-
-def _read_table(source: bytes | str | Path, *, max_bytes: int, name: str | None):
-    """Read a table with the engine's reader (``fitting.read_table``)."""
-    return fitting.read_table(source, max_bytes=max_bytes, name=name)
-
-
-def _table_nbytes(table, fallback: int) -> int:
-    for attr in ("nbytes",):
-        v = getattr(table, attr, None)
-        if isinstance(v, (int, np.integer)):
-            return int(v)
-    frame = getattr(table, "frame", None)
-    if frame is not None and hasattr(frame, "memory_usage"):
-        return int(frame.memory_usage(deep=True).sum())
-    return int(fallback)
+# intake and typed values
 
 
 def decode_upload(contents: str, limit: int) -> bytes:
@@ -285,32 +387,55 @@ def _too_large(size: int, limit: int) -> str:
     def mb(v):
         return f"{v / 2**20:.1f} MiB" if v >= 2**20 else f"{v / 1024:.0f} KiB" if v >= 1024 else f"{v} bytes"
 
-    return f"The file is {mb(size)}, over this server's upload limit of {mb(limit)}; use a smaller file or ask for a higher limit."
+    return (
+        f"The file is {mb(size)}, over this server's upload limit of {mb(limit)}; "
+        "use a smaller file or ask for a higher limit."
+    )
 
 
-def parse_x_values(text: str | None) -> np.ndarray:
-    """x values typed by the user: numbers separated by commas, semicolons, spaces or new lines."""
-    if not text or not text.strip():
+def _what_is_wanted(token: str) -> str:
+    try:
+        float(token)
+    except ValueError:
+        return "a number"
+    return "a finite number"
+
+
+def parse_x_values(text_in: str | None, decimal: str = ".") -> np.ndarray:
+    """x values typed by the user.
+
+    With the decimal point, commas, semicolons, spaces and new lines separate values. With the
+    decimal comma (``decimal=","``, a file written that way), "250,5" is one value and only
+    semicolons, spaces and new lines separate. The length is checked before the text is split.
+    """
+    if not text_in or not text_in.strip():
         return np.empty(0)
-    parts = [p for p in re.split(r"[\s;,]+", text.strip()) if p]
+    if len(text_in) > MAX_PREDICT_CHARS:
+        raise FitError(
+            f"Type at most {MAX_PREDICT_VALUES} x values at a time "
+            f"(this text has {len(text_in):,} characters; {MAX_PREDICT_CHARS:,} at most)."
+        )
+    comma = decimal == ","
+    parts = [p for p in re.split(r"[\s;]+" if comma else r"[\s;,]+", text_in.strip()) if p]
     if len(parts) > MAX_PREDICT_VALUES:
         raise FitError(f"Type at most {MAX_PREDICT_VALUES} x values at a time.")
+    example = "1,5; 2; 3e2" if comma else "1.5, 2, 3e2"
     out = []
     for p in parts:
-        try:
-            v = float(p)
-        except ValueError:
-            raise FitError(f"{p[:40]!r} is not a number; type x values like 1.5, 2, 3e2.") from None
-        if not math.isfinite(v):
-            raise FitError(f"{p[:40]!r} is not a finite number.")
+        token = p.replace(",", ".") if comma else p
+        v = _finite_number(token)
+        if v is None:
+            raise FitError(f"{text.echo(p)} is not {_what_is_wanted(token)}; type x values like {example}.")
         out.append(v)
     return np.asarray(out, dtype=float)
 
 
-def _fmt(v: float, digits: int = 4) -> str:
-    if v is None or not np.isfinite(v):
-        return "—"
-    return f"{v:.{digits}g}"
+def clamp_degree(degree, max_degree: int) -> int:
+    """``degree`` as a whole number within 0..max_degree; FitError for non-numbers, NaN and infinities."""
+    v = _finite_number(degree)
+    if v is None:
+        raise FitError(f"The degree must be a whole number from 0 to {int(max_degree)}, not {text.echo(degree)}.")
+    return max(0, min(int(max_degree), int(v)))
 
 
 # ----------------------------------------------------------------------------
@@ -331,19 +456,27 @@ class FitService:
         self._splits = _LRU(32)
         self._models = _LRU(64)
 
+    @property
+    def sweeps_computed(self) -> int:
+        """How many split views and verdict sweeps were computed (not taken from the cache) so far."""
+        return self._splits.misses + self._steady.misses
+
     # -- datasets -------------------------------------------------------------
     def load_bytes(self, data: bytes, name: str | None) -> DatasetInfo:
-        table = _read_table(data, max_bytes=self.upload_limit_bytes, name=name)
-        return self._put(table, name or "upload", len(data))
+        """Read an uploaded file's bytes (within the upload limit) and store the table."""
+        table = fitting.read_table(data, max_bytes=self.upload_limit_bytes, name=name)
+        return self._put(table, name or "upload")
 
     def load_upload(self, contents: str, filename: str | None) -> DatasetInfo:
+        """Decode a ``dcc.Upload`` data URL (size checked first) and store its table."""
         data = decode_upload(contents, self.upload_limit_bytes)
         return self.load_bytes(data, filename)
 
     def load_path(self, path: str | Path) -> DatasetInfo:
+        """Read a file on this machine (any size) and store its table."""
         path = Path(path)
-        table = _read_table(path, max_bytes=max(self.upload_limit_bytes, path.stat().st_size), name=path.name)
-        return self._put(table, path.name, path.stat().st_size)
+        table = fitting.read_table(path, max_bytes=max(self.upload_limit_bytes, path.stat().st_size), name=path.name)
+        return self._put(table, path.name)
 
     def sample_id(self) -> str:
         """Id of the start-up dataset, reloading it if it was evicted."""
@@ -352,9 +485,9 @@ class FitService:
                 self._sample_id = self.load_path(self.sample_path).id
             return self._sample_id
 
-    def _put(self, table, name: str, raw_size: int) -> DatasetInfo:
+    def _put(self, table: Table, name: str) -> DatasetInfo:
         # room for the table and for the column selections made from it
-        nbytes = 2 * _table_nbytes(table, fallback=4 * raw_size)
+        nbytes = 2 * int(table.frame.memory_usage(deep=True).sum())
         stored = StoredDataset(name=name, table=table, nbytes=nbytes)
         key = self.store.put(stored)
         info = self._describe(key, stored)
@@ -362,31 +495,23 @@ class FitService:
         return info
 
     def _describe(self, key: str, stored: StoredDataset) -> DatasetInfo:
-        table = stored.table
-        rep = table.report
-        try:
-            dx, dy = table.default_xy()
-        except DegreescopeError:
-            dx, dy = None, None
-        numeric = tuple(str(c) for c in rep.numeric_columns)
-        if dx is None:
-            raise fitting.ColumnError(
-                "The file needs at least two numeric columns (x and y); this one has "
-                f"{len(numeric)}. Check the delimiter and the decimal mark."
-            )
+        rep = stored.table.report
+        dx, dy = stored.table.default_xy()  # intake guarantees two numeric columns
         return DatasetInfo(
             id=key,
             name=stored.name,
             columns=tuple(str(c) for c in rep.columns),
-            numeric_columns=numeric,
+            numeric_columns=tuple(str(c) for c in rep.numeric_columns),
             default_x=str(dx),
             default_y=str(dy),
             report_lines=tuple(rep.summary_lines()),
             units={str(k): str(v) for k, v in (rep.units or {}).items() if v},
             rows=int(rep.rows_read),
+            decimal=str(rep.decimal or "."),
         )
 
     def info(self, ds_id: str) -> DatasetInfo:
+        """The description of a stored dataset; DatasetGone when it was evicted."""
         stored = self.store.get(ds_id)
         info = stored.meta.get("info")
         if info is None:
@@ -394,7 +519,8 @@ class FitService:
             stored.meta["info"] = info
         return info
 
-    def selection(self, ds_id: str, cols: Columns):
+    def selection(self, ds_id: str, cols: Columns) -> Selection:
+        """The rows usable with these columns (cached); ColumnError for a clash, FitError below 3 rows."""
         stored = self.store.get(ds_id)  # raises DatasetGone when evicted
         if cols.x == cols.y:
             raise fitting.ColumnError("x and y are the same column; pick two different columns.")
@@ -411,73 +537,51 @@ class FitService:
         return self._selections.get_or_make((ds_id, cols), make)
 
     # -- sweeps -------------------------------------------------------------------
-    def steady_sweep(self, ds_id: str, cols: Columns):
-        """The verdict's sweep: 10-fold CV (repeated when small), or grouped folds."""
+    def steady_sweep(self, ds_id: str, cols: Columns) -> DegreeSweep:
+        """The verdict sweep: the engine's one rule (``fitting.verdict_sweep``), shared with ``degreescope sweep``."""
 
         def make():
             sel = self.selection(ds_id, cols)
-            n = sel.rows_used
-            degrees = range(0, MAX_DEGREE + 1)
-            if sel.group is not None:
-                return fitting.sweep_degrees(
-                    sel.x, sel.y, degrees=degrees, folds=np.asarray(sel.group), weights=sel.weights
-                )
-            k = min(STEADY_FOLDS, n)
-            repeats = STEADY_REPEATS_SMALL if n <= STEADY_SMALL_ROWS else 1
-            return fitting.sweep_degrees(
-                sel.x, sel.y, degrees=degrees, folds=k, repeats=repeats, seed=0, weights=sel.weights
-            )
+            return fitting.verdict_sweep(sel.x, sel.y, weights=sel.weights, groups=sel.group)
 
         return self._steady.get_or_make((ds_id, cols), make)
 
     def split_view(self, ds_id: str, cols: Columns, split: SplitSettings) -> SplitView:
+        """The chosen split's sweep over degrees 0..MAX_DEGREE, the verdict sweep and the chart's points (cached)."""
+        self.store.get(ds_id)  # owner and eviction check before any cached view of this dataset
         return self._splits.get_or_make((ds_id, cols, split), lambda: self._make_split_view(ds_id, cols, split))
+
+    def _chosen_sweep(self, sel: Selection, split: SplitSettings) -> DegreeSweep:
+        degrees = range(0, MAX_DEGREE + 1)
+        if split.mode == "kfold":
+            folds = np.asarray(sel.group) if sel.group is not None else split.folds
+            return fitting.sweep_degrees(
+                sel.x, sel.y, degrees=degrees, folds=folds, seed=split.seed, weights=sel.weights
+            )
+        return fitting.sweep_degrees(
+            sel.x,
+            sel.y,
+            degrees=degrees,
+            holdout=split.holdout,
+            ordered=split.mode == "ordered",
+            seed=split.seed,
+            weights=sel.weights,
+        )
 
     def _make_split_view(self, ds_id: str, cols: Columns, split: SplitSettings) -> SplitView:
         sel = self.selection(ds_id, cols)
         x, y = sel.x, sel.y
-        degrees = range(0, MAX_DEGREE + 1)
-        if split.mode == "kfold":
-            folds = np.asarray(sel.group) if sel.group is not None else split.folds
-            sweep = fitting.sweep_degrees(x, y, degrees=degrees, folds=folds, seed=split.seed, weights=sel.weights)
-        else:
-            sweep = fitting.sweep_degrees(
-                x,
-                y,
-                degrees=degrees,
-                holdout=split.holdout,
-                ordered=split.mode == "ordered",
-                seed=split.seed,
-                weights=sel.weights,
-            )
-        steady = self.steady_sweep(ds_id, cols)
+        sweep = self._chosen_sweep(sel, split)
         test = sweep.test_mask if sweep.test_mask is not None else np.zeros(x.size, dtype=bool)
-        n = x.size
-        sampled = n > MAX_POINTS
-        if sampled:
-            # a uniform random sample keeps the density of the points (and the train/test mix)
-            rng = np.random.default_rng(12345)
-            idx = np.sort(rng.choice(n, size=MAX_POINTS, replace=False))
-        else:
-            idx = np.arange(n)
-        tr = idx[~test[idx]]
-        te = idx[test[idx]]
+        idx = _chart_rows(x.size)
+        tr, te = idx[~test[idx]], idx[test[idx]]
         lo, hi = float(x.min()), float(x.max())
-        span = hi - lo
-        grid = np.linspace(lo - PAD * span, hi + PAD * span, GRID_POINTS)
         tlo, thi = (float(v) for v in sweep.display_domain)
-        grid = np.unique(np.concatenate([grid, [lo, hi, tlo, thi]]))
-        x_label = _axis_label(sel.x_name, sel.x_unit)
-        y_label = _axis_label(sel.y_name, sel.y_unit)
-        if sel.group is not None:
-            steady_label = f"grouped folds by {cols.group!r} ({steady.n_splits} groups)"
-        else:
-            steady_label = steady.scheme
         return SplitView(
             columns=cols,
             split=split,
-            x_label=x_label,
-            y_label=y_label,
+            x_name=str(sel.x_name),
+            y_name=str(sel.y_name),
             x_unit=sel.x_unit,
             y_unit=sel.y_unit,
             rows_used=int(sel.rows_used),
@@ -487,123 +591,89 @@ class FitService:
             test_x=x[te],
             test_y=y[te],
             points_shown=int(idx.size),
-            sampled=sampled,
+            sampled=idx.size < x.size,
             has_test_points=bool(te.size),
             data_range=(lo, hi),
             training_range=(tlo, thi),
-            grid=grid,
+            grid=_grid(lo, hi, tlo, thi),
             sweep=sweep,
-            steady=steady,
+            steady=self.steady_sweep(ds_id, cols),
             max_degree=int(min(MAX_DEGREE, int(sweep.degrees.max()))),
-            split_label=sweep.scheme,
-            steady_label=steady_label,
         )
 
     # -- one degree -----------------------------------------------------------------
-    def degree_view(self, ds_id: str, cols: Columns, split: SplitSettings, degree: int) -> DegreeView:
+    def degree_view(self, ds_id: str, cols: Columns, split: SplitSettings, degree) -> DegreeView:
+        """Curve, bands and the chosen split's numbers at one degree: no pass over the rows."""
         view = self.split_view(ds_id, cols, split)
         d = clamp_degree(degree, view.max_degree)
-        sw = view.sweep
-        curve = sw.curve(d, view.grid)
-        clo, chi = sw.band(d, view.grid, "confidence", 0.95)
-        plo, phi = sw.band(d, view.grid, "prediction", 0.95)
-        i = sw.index(d)
-        se = float(sw.test_rmse_se[i]) if sw.n_splits > 1 else float("nan")
-        warns = tuple(view.steady.warnings_for(d))
-        test_name = "CV test" if view.split.mode == "kfold" else "test"
-        caption = (
-            f"Degree {d} · {test_name} RMSE {_fmt(float(sw.test_rmse[i]))}"
-            + (f" ± {_fmt(se, 2)}" if np.isfinite(se) else "")
-            + f" · R² train {_fmt(float(sw.train_r2[i]), 5)}, {test_name} {_fmt(float(sw.test_r2[i]), 5)}",
-            f"Split: {view.split_label} · {view.rows_used:,} rows",
-        )
+        sweep = view.sweep
+        clo, chi = sweep.band(d, view.grid, "confidence", 0.95)
+        plo, phi = sweep.band(d, view.grid, "prediction", 0.95)
+        i = sweep.index(d)
         return DegreeView(
             degree=d,
-            curve=curve,
+            curve=sweep.curve(d, view.grid),
             conf_lo=clo,
             conf_hi=chi,
             pred_lo=plo,
             pred_hi=phi,
-            train_rmse=float(sw.train_rmse[i]),
-            test_rmse=float(sw.test_rmse[i]),
-            test_rmse_se=se,
-            train_r2=float(sw.train_r2[i]),
-            test_r2=float(sw.test_r2[i]),
-            warnings=warns,
-            caption=caption,
+            train_rmse=float(sweep.train_rmse[i]),
+            test_rmse=float(sweep.test_rmse[i]),
+            test_rmse_se=_se(sweep, i),
+            train_r2=float(sweep.train_r2[i]),
+            test_r2=float(sweep.test_r2[i]),
+            warnings=tuple(view.steady.warnings_for(d)),
         )
 
     # -- the precise model ------------------------------------------------------------
-    def model_view(self, ds_id: str, cols: Columns, split: SplitSettings, degree: int) -> ModelView:
+    def model_view(self, ds_id: str, cols: Columns, split: SplitSettings, degree) -> ModelView:
+        """The precise fit (``fitting.fit_polynomial``) on the training rows of the split, cached per degree."""
         view = self.split_view(ds_id, cols, split)
         d = clamp_degree(degree, view.max_degree)
         return self._models.get_or_make((ds_id, cols, split, d), lambda: self._make_model_view(ds_id, cols, view, d))
 
-    def _make_model_view(self, ds_id, cols: Columns, view: SplitView, d: int) -> ModelView:
+    def _make_model_view(self, ds_id: str, cols: Columns, view: SplitView, d: int) -> ModelView:
         sel = self.selection(ds_id, cols)
         mask = view.sweep.test_mask
         keep = np.ones(sel.x.size, dtype=bool) if mask is None else ~mask
-        w = None if sel.weights is None else sel.weights[keep]
         fit = fitting.fit_polynomial(
             sel.x[keep],
             sel.y[keep],
             d,
-            weights=w,
+            weights=None if sel.weights is None else sel.weights[keep],
             x_name=sel.x_name,
             y_name=sel.y_name,
             x_unit=sel.x_unit,
             y_unit=sel.y_unit,
         )
-        q = float(stdtrit(fit.dof, 0.975)) if fit.dof > 0 else float("nan")  # Student t quantile
-        rows = []
-        for k, (c, se) in enumerate(zip(fit.coefficients, fit.standard_errors, strict=False)):
-            unit = _coef_unit(view.x_unit, view.y_unit, k)
-            rows.append(
-                {
-                    "term": "1" if k == 0 else ("x" if k == 1 else f"x^{k}"),
-                    "power": k,
-                    "coefficient": float(c),
-                    "se": float(se),
-                    "ci_lo": float(c - q * se) if np.isfinite(q) else float("nan"),
-                    "ci_hi": float(c + q * se) if np.isfinite(q) else float("nan"),
-                    "unit": unit,
-                }
-            )
         # residuals of the chart's points (all rows when few, else the same sample)
         rx = np.concatenate([view.train_x, view.test_x])
         ry = np.concatenate([view.train_y, view.test_y])
-        res = ry - fit.predict(rx)
         i = view.sweep.index(d)
-        fitted_on = (
-            f"every one of the {fit.n:,} rows"
-            if mask is None
-            else f"the {fit.n:,} training rows of the {view.split_label} (switch to k-fold to fit every row)"
-        )
         return ModelView(
             fit=fit,
-            coefficient_rows=rows,
-            equation=fit.equation(digits=8, x="x", y="y"),
-            t_quantile=q,
+            t_quantile=float(stdtrit(fit.dof, 0.975)) if fit.dof > 0 else float("nan"),  # Student t, 95 % two-sided
             residual_x=rx,
-            residuals=res,
+            residuals=ry - fit.predict(rx),
             residual_sampled=view.sampled,
-            fitted_on=fitted_on,
-            fitted_rows=f"all {fit.n:,} rows" if mask is None else f"the {fit.n:,} training rows",
+            every_row=mask is None,
+            split_label=view.split_label,
+            x_unit=view.x_unit,
+            y_unit=view.y_unit,
             test_rmse=float(view.sweep.test_rmse[i]),
-            test_rmse_se=float(view.sweep.test_rmse_se[i]) if view.sweep.n_splits > 1 else float("nan"),
+            test_rmse_se=_se(view.sweep, i),
             test_r2=float(view.sweep.test_r2[i]),
         )
 
-    def predict(self, ds_id: str, cols: Columns, split: SplitSettings, degree: int, x) -> PredictionView:
-        model = self.model_view(ds_id, cols, split, degree)
-        fit = model.fit
+    def predict(self, ds_id: str, cols: Columns, split: SplitSettings, degree, x) -> PredictionView:
+        """Predictions and 95 % confidence and prediction bands of the precise fit at ``x``."""
+        fit = self.model_view(ds_id, cols, split, degree).fit
         x = np.asarray(x, dtype=float)
-        y = fit.predict(x)
         clo, chi = fit.band(x, "confidence", 0.95)
         plo, phi = fit.band(x, "prediction", 0.95)
         return PredictionView(
             x=x,
-            y=y,
+            y=fit.predict(x),
             conf_lo=clo,
             conf_hi=chi,
             pred_lo=plo,
@@ -612,31 +682,29 @@ class FitService:
             domain=fit.domain,
         )
 
-    def row_predictions(self, ds_id: str, cols: Columns, split: SplitSettings, degree: int):
+    def row_predictions(
+        self, ds_id: str, cols: Columns, split: SplitSettings, degree
+    ) -> tuple[Selection, PredictionView]:
         """(selection, prediction view) at every data row, for the predictions CSV."""
         sel = self.selection(ds_id, cols)
         return sel, self.predict(ds_id, cols, split, degree, sel.x)
 
 
-def clamp_degree(degree, max_degree: int) -> int:
-    try:
-        d = int(degree)
-    except (TypeError, ValueError):
-        d = 0
-    return max(0, min(int(max_degree), d))
+def _se(sweep: DegreeSweep, i: int) -> float:
+    """The test RMSE's standard error across splits; NaN for a single holdout."""
+    return float(sweep.test_rmse_se[i]) if sweep.n_splits > 1 else float("nan")
 
 
-def _axis_label(name: str, unit: str | None) -> str:
-    name = str(name)
-    if unit and unit not in name:
-        return f"{name} ({unit})"
-    return name
+def _chart_rows(n: int) -> np.ndarray:
+    """Rows drawn on the chart: all, or a uniform random sample that keeps the density and the train/test mix."""
+    if n <= MAX_POINTS:
+        return np.arange(n)
+    rng = np.random.default_rng(12345)
+    return np.sort(rng.choice(n, size=MAX_POINTS, replace=False))
 
 
-def _coef_unit(x_unit: str | None, y_unit: str | None, k: int) -> str:
-    if not y_unit and not x_unit:
-        return ""
-    yu = y_unit or "1"
-    if k == 0 or not x_unit:
-        return yu if k == 0 or not x_unit else yu
-    return f"{yu}/{x_unit}" if k == 1 else f"{yu}/{x_unit}^{k}"
+def _grid(lo: float, hi: float, train_lo: float, train_hi: float) -> np.ndarray:
+    """x values of the drawn curve: the data range padded on both sides, plus the range ends."""
+    span = hi - lo
+    grid = np.linspace(lo - PAD * span, hi + PAD * span, GRID_POINTS)
+    return np.unique(np.concatenate([grid, [lo, hi, train_lo, train_hi]]))

@@ -27,7 +27,10 @@ def main(argv=None) -> None:
         "--blas-threads",
         type=int,
         default=1,
-        help="BLAS threads for both sides (default 1, what the engine uses for its own LAPACK calls); 0 leaves the library default",
+        help=(
+            "BLAS threads for both sides (default 1, what the engine uses for its own LAPACK calls); "
+            "0 leaves the library default"
+        ),
     )
     args = ap.parse_args(argv)
     with blas_limit(args.blas_threads or None):
@@ -45,11 +48,14 @@ def _run(args) -> None:
         reps = args.repeats if n < 1_000_000 else max(3, args.repeats // 2)
         for d in degrees:
             med = interleaved_medians(
-                {"ours": lambda: fit_polynomial(x, y, d), "numpy": lambda: Polynomial.fit(x, y, d)}, repeats=reps
+                {
+                    "ours": lambda x=x, y=y, d=d: fit_polynomial(x, y, d),
+                    "numpy": lambda x=x, y=y, d=d: Polynomial.fit(x, y, d),
+                },
+                repeats=reps,
             )
-            print(
-                f"{n:9,d} {d:6d} {med['ours'] * 1e3:12.1f} ms {med['numpy'] * 1e3:12.1f} ms {med['ours'] / med['numpy']:6.2f}x"
-            )
+            ratio = med["ours"] / med["numpy"]
+            print(f"{n:9,d} {d:6d} {med['ours'] * 1e3:12.1f} ms {med['numpy'] * 1e3:12.1f} ms {ratio:6.2f}x")
 
 
 if __name__ == "__main__":

@@ -36,7 +36,7 @@ import json, resource, sys, time
 t0 = time.perf_counter()
 sys.path.insert(0, {root!r})
 import os, tempfile
-from fitting._stream import sweep_source
+from fitting import sweep_source
 # warm-up on 200 invented rows: lazy imports and first-call set-up count as start-up, not as sweep time
 with tempfile.TemporaryDirectory() as tmp:
     warm = os.path.join(tmp, "warm.csv")
@@ -60,7 +60,8 @@ import json, resource, time
 import pyarrow as pa, pyarrow.csv as pcsv
 t0 = time.perf_counter()
 reader = pcsv.open_csv({path!r}, read_options=pcsv.ReadOptions(skip_rows={skip}, block_size=24 << 20),
-                       convert_options=pcsv.ConvertOptions(column_types={{"time (h)": pa.float64(), "pressure (kPa)": pa.float64()}}))
+                       convert_options=pcsv.ConvertOptions(
+                           column_types={{"time (h)": pa.float64(), "pressure (kPa)": pa.float64()}}))
 rows = sum(b.num_rows for b in reader)
 print(json.dumps({{"read_s": time.perf_counter() - t0, "rows": rows,
                   "peak_rss_mb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0}}))
@@ -122,7 +123,8 @@ def main(argv=None) -> int:
         f"load average {os.getloadavg()[0]:.2f}"
     )
     print(
-        f"{'n':>10} {'sweep s':>9} {'process s':>10} {'peak RSS MB':>12} {'pyarrow read s':>15} {'µs/row':>7} {'degree':>7}"
+        f"{'n':>10} {'sweep s':>9} {'process s':>10} {'peak RSS MB':>12} "
+        f"{'pyarrow read s':>15} {'µs/row':>7} {'degree':>7}"
     )
     rows = []
     for n in sizes:

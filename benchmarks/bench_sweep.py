@@ -81,12 +81,12 @@ def speed(n: int, repeats: int, sk_repeats: int, seed: int = 0) -> None:
             worst = max(worst, abs(s.test_rmse_folds[i, j] ** 2 - mse) / mse)
 
     print(
-        f"Degree sweep, degrees 0-15 x 10 folds, {n:,} rows (medians of {repeats} interleaved runs; sklearn {sk_repeats})"
+        f"Degree sweep, degrees 0-15 x 10 folds, {n:,} rows "
+        f"(medians of {repeats} interleaved runs; sklearn {sk_repeats})"
     )
     print(f"  sweep_degrees                      {med['sweep'] * 1e3:9.1f} ms")
-    print(
-        f"  numpy Polynomial.fit, degree 15    {med['numpy'] * 1e3:9.1f} ms   sweep / numpy   = {med['sweep'] / med['numpy']:6.2f}x"
-    )
+    ratio = med["sweep"] / med["numpy"]
+    print(f"  numpy Polynomial.fit, degree 15    {med['numpy'] * 1e3:9.1f} ms   sweep / numpy   = {ratio:6.2f}x")
     print(f"  sklearn validation_curve pipeline  {t_sk * 1e3:9.1f} ms   sklearn / sweep = {t_sk / med['sweep']:6.0f}x")
     print(f"  max relative difference of fold test MSE vs per-fold Polynomial.fit refits: {worst:.2e}")
     print(f"  recommended degree {s.recommended_degree}: {s.recommendation}")
@@ -94,7 +94,11 @@ def speed(n: int, repeats: int, sk_repeats: int, seed: int = 0) -> None:
 
 def lre_table() -> None:
     print("\nNIST StRD polynomial sets: minimum LRE (digits; 15 = all printed digits)")
-    header = f"  {'set':9s} {'deg':>3s} | {'ours: coef':>10s} {'SE':>5s} {'res SD':>6s} {'R²':>5s} | {'polyfit: coef':>13s} {'SE':>5s} {'res SD':>6s} {'R²':>5s} | {'Polynomial.fit: coef':>20s} {'res SD':>6s} {'R²':>5s}"
+    header = (
+        f"  {'set':9s} {'deg':>3s} | {'ours: coef':>10s} {'SE':>5s} {'res SD':>6s} {'R²':>5s} | "
+        f"{'polyfit: coef':>13s} {'SE':>5s} {'res SD':>6s} {'R²':>5s} | "
+        f"{'Polynomial.fit: coef':>20s} {'res SD':>6s} {'R²':>5s}"
+    )
     print(header)
     for name in POLYNOMIAL_SETS:
         c = load(name)
@@ -109,7 +113,7 @@ def lre_table() -> None:
             lre(fit.r_squared, c.r_squared),
         )
 
-        def stats_of(coef_power):
+        def stats_of(coef_power, c=c, n=n, d=d):
             yhat = np.polynomial.polynomial.polyval(c.x, coef_power)
             rss = float(np.sum((c.y - yhat) ** 2))
             tss = float(np.sum((c.y - c.y.mean()) ** 2))
@@ -132,7 +136,8 @@ def lre_table() -> None:
         polyn = (min(lre(pc[k], c.coefficients[k]) for k in ks), *stats_of(pc))
         print(
             f"  {name:9s} {d:3d} | {ours[0]:10.1f} {ours[1]:5.1f} {ours[2]:6.1f} {ours[3]:5.1f} | "
-            f"{polyfit[0]:13.1f} {polyfit[1]:5.1f} {polyfit[2]:6.1f} {polyfit[3]:5.1f} | {polyn[0]:20.1f} {polyn[1]:6.1f} {polyn[2]:5.1f}"
+            f"{polyfit[0]:13.1f} {polyfit[1]:5.1f} {polyfit[2]:6.1f} {polyfit[3]:5.1f} | "
+            f"{polyn[0]:20.1f} {polyn[1]:6.1f} {polyn[2]:5.1f}"
         )
     print(
         "  (numpy's residual SD and R² are computed here from its coefficients in double precision;"
@@ -150,7 +155,10 @@ def main(argv=None) -> None:
         "--blas-threads",
         type=int,
         default=1,
-        help="BLAS threads for both sides (default 1, what the engine uses for its own LAPACK calls); 0 leaves the library default",
+        help=(
+            "BLAS threads for both sides (default 1, what the engine uses for its own LAPACK calls); "
+            "0 leaves the library default"
+        ),
     )
     args = ap.parse_args(argv)
     with blas_limit(args.blas_threads or None):

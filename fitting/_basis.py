@@ -67,25 +67,6 @@ def chebyshev_vander(t: np.ndarray, ncols: int) -> np.ndarray:
     return chebyshev_rows(np.atleast_1d(t), ncols).T
 
 
-def chebyshev_moments(t: np.ndarray, count: int, weights: np.ndarray | None = None) -> np.ndarray:
-    """S_k = sum_i w_i T_k(t_i) for k < count, without storing the basis."""
-    t = np.asarray(t)
-    out = np.zeros(count, dtype=t.dtype)
-    prev = np.ones_like(t) if weights is None else np.asarray(weights, dtype=t.dtype).copy()
-    if count > 0:
-        out[0] = prev.sum()
-    if count > 1:
-        cur = t * prev
-        out[1] = cur.sum()
-        two_t = 2 * t
-        for k in range(2, count):
-            nxt = two_t * cur
-            nxt -= prev
-            out[k] = nxt.sum()
-            prev, cur = cur, nxt
-    return out
-
-
 def chebyshev_moments_from_rows(rows: np.ndarray, count: int, weights: np.ndarray | None = None) -> np.ndarray:
     """Moments S_k = sum_i w_i T_k(t_i), k < count <= 2m - 1, from stored rows T_0 .. T_{m-1}.
 

@@ -44,7 +44,6 @@ decide what is acceptable.
 
 from __future__ import annotations
 
-import inspect
 import math
 from dataclasses import dataclass, field
 from typing import Any
@@ -55,7 +54,7 @@ from scipy.optimize import brentq
 
 from ._errors import FitError
 from ._polyfit import PolynomialFit, fit_polynomial, t_quantile
-from ._weighting import COLUMN_RULE, WEIGHTINGS, check_weighting, weight_at, weights_for
+from ._weighting import COLUMN_RULE, WEIGHTINGS, check_weighting, weight_at
 
 __all__ = [
     "CALIBRATION_CAUTION",
@@ -646,11 +645,7 @@ class WeightingComparison:
 
 
 def _fit_with_rule(x, y, degree, rule, through_origin) -> PolynomialFit:
-    w = weights_for(rule, x, y)
-    kwargs: dict[str, Any] = {"weights": w, "through_origin": through_origin}
-    if "weighting" in inspect.signature(fit_polynomial).parameters:
-        kwargs["weighting"] = rule
-    return fit_polynomial(x, y, degree, **kwargs)
+    return fit_polynomial(x, y, degree, weighting=rule, through_origin=through_origin)
 
 
 def _score(x, y, degree, rule, through_origin) -> tuple[float, str | None]:

@@ -21,7 +21,32 @@ class IntakeError(DegreescopeError):
 
 
 class FileTooLargeError(IntakeError):
-    """The input is larger than the configured size limit."""
+    """The input is larger than the configured size limit.
+
+    ``size`` and ``limit`` (bytes) are given when known; ``size_bytes`` and
+    ``limit_bytes`` are the same numbers under their older names.
+    """
+
+    def __init__(self, message: str = "", *, size: int | None = None, limit: int | None = None) -> None:
+        super().__init__(message)
+        self.size = size
+        self.limit = limit
+
+    @property
+    def size_bytes(self) -> int | None:
+        return self.size
+
+    @size_bytes.setter
+    def size_bytes(self, value: int | None) -> None:
+        self.size = value
+
+    @property
+    def limit_bytes(self) -> int | None:
+        return self.limit
+
+    @limit_bytes.setter
+    def limit_bytes(self, value: int | None) -> None:
+        self.limit = value
 
 
 class ColumnError(DegreescopeError):

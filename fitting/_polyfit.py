@@ -27,6 +27,17 @@ How the fit is computed
 5. Chebyshev coefficients and their covariance are converted to the power basis
    of the original x in 80-digit decimals and rounded once.
 
+Extreme magnitudes: x and y beyond 2**±100 are divided by exact powers of two
+before step 1 (``pow2_exponent``), so no sum of squares leaves double precision,
+and every reported number is multiplied back exactly. Only what doubles cannot
+hold is refused: non-finite values and an x range whose width overflows.
+Covariance entries that a double cannot hold are given as infinite or zero, with
+a warning.
+
+Weights are inverse variances: a weights column (recorded as weighting "column")
+or a named rule (``fitting.WEIGHTINGS``), whose weight at a new x gives the
+prediction band there (s² / w(x0)).
+
 This reaches at least 13 correct digits (LRE) on the NIST StRD polynomial sets
 the test-suite holds (limited by the rounding of their decimal data to
 doubles) and all 15 printed digits on exactly representable sets such as
@@ -47,7 +58,6 @@ Notes
 
 from __future__ import annotations
 
-import contextlib
 import decimal
 import math
 import warnings as _warnings
@@ -55,40 +65,57 @@ from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
-from scipy.linalg import lapack as _lapack
+from numpy.typing import ArrayLike
 from scipy.linalg import solve_triangular
 
 from . import _basis
 from ._errors import FitError, RankWarning
+from ._linalg import EPS_LD as _EPS_LD
+from ._linalg import LD, _cholesky_ld, _solve_rtr, condition_of, qr_r, single_thread_blas, t_quantile
+from ._weighting import COLUMN_RULE, check_weighting, weight_at, weights_for
 
-LD = np.longdouble
 MODEL_FORMAT = "degreescope.polynomial-model"
-MODEL_VERSION = 1
+MODEL_VERSION = 2  # 2 adds "weighting" and "plain_rmse"; version 1 files still load
 
-__all__ = ["PolynomialFit", "fit_polynomial", "validate_xyw", "t_quantile"]
+__all__ = [
+    "PolynomialFit",
+    "fit_polynomial",
+    "validate_xyw",
+    "domain_for_origin",
+    "pow2_exponent",
+    "MODEL_FORMAT",
+    "MODEL_VERSION",
+    # re-exported from _linalg for the modules that import them from here
+    "qr_r",
+    "condition_of",
+    "single_thread_blas",
+    "t_quantile",
+]
 
-
-def t_quantile(level: float, dof: int) -> float:
-    """Two-sided Student's t quantile for a central interval of ``level`` with ``dof`` degrees of freedom.
-
-    scipy.special.stdtrit is the inverse of the t distribution's CDF (the same
-    function scipy.stats.t.ppf uses), without importing scipy.stats, which costs
-    more than half a second at start-up.
-    """
-    from scipy.special import stdtrit
-
-    return float(stdtrit(dof, 0.5 + float(level) / 2.0))
+# Fits with at most this many (rows x coefficients) get a last refinement step
+# whose residual and gradient are computed in 50-digit decimals.
+POLISH_LIMIT = 10_000
+_POLISH_CTX = decimal.Context(prec=50)
+# y is scaled by an exact power of two when its largest magnitude lies outside [2**-POW2_SAFE, 2**POW2_SAFE]
+POW2_SAFE = 100
+COLUMN_INTERVAL_NOTE = (
+    "Prediction intervals assume a weight of 1 at a new x (the weights came from a column, "
+    "which cannot say what the weight at a new x is)."
+)
 
 
 # ----------------------------------------------------------------------------
 # input checks shared by fits and sweeps
 
 
-Y_MAGNITUDE_LIMIT = 1e150  # |y| beyond this (or below its inverse) overflows (underflows) y**2 sums
+def validate_xyw(
+    x: ArrayLike, y: ArrayLike, weights: ArrayLike | None = None
+) -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:
+    """Return float64 copies of x, y, weights after checking them; raise FitError.
 
-
-def validate_xyw(x, y, weights=None) -> tuple[np.ndarray, np.ndarray, np.ndarray | None]:
-    """Return float64 copies of x, y, weights after checking them; raise FitError."""
+    Only what double precision cannot hold is refused: non-finite values, and an x
+    range whose span overflows. Extreme y magnitudes are scaled internally (``pow2_exponent``).
+    """
     try:
         x = np.asarray(x, dtype=np.float64).ravel()
         y = np.asarray(y, dtype=np.float64).ravel()
@@ -100,118 +127,43 @@ def validate_xyw(x, y, weights=None) -> tuple[np.ndarray, np.ndarray, np.ndarray
         raise FitError("There are no data rows to fit; load a file with at least two rows of numbers.")
     if not (np.isfinite(x).all() and np.isfinite(y).all()):
         raise FitError("x and y must be finite numbers; remove rows with missing or infinite values first.")
-    w = None
-    if weights is not None:
-        try:
-            w = np.asarray(weights, dtype=np.float64).ravel()
-        except (TypeError, ValueError):
-            raise FitError("Weights must be numbers; pick a numeric weights column.") from None
-        if w.shape != x.shape:
-            raise FitError(f"Expected one weight per row; got {w.size} weights for {x.size} rows.")
-        bad = ~(np.isfinite(w) & (w > 0))
-        if bad.any():
-            raise FitError(
-                f"Weights must be positive and finite; {int(bad.sum())} of {w.size} are not "
-                f"(first at row {int(np.argmax(bad)) + 1}). Fix or drop those rows."
-            )
+    w = None if weights is None else _validate_weights(weights, x.size)
     if np.unique(x).size < 2:
         raise FitError("x has fewer than two distinct values; a curve needs at least two. Choose another x column.")
     if not np.isfinite(float(x.max()) - float(x.min())):
         raise FitError(
-            f"The x values span {float(x.min()):.3g} to {float(x.max()):.3g}, a range too wide for double precision; "
-            "express x in larger units (rescale it) and fit again."
-        )
-    ymax = float(np.max(np.abs(y)))
-    if ymax > Y_MAGNITUDE_LIMIT or 0.0 < ymax < 1.0 / Y_MAGNITUDE_LIMIT:
-        # sums of squared residuals would overflow to infinity or underflow to zero in double precision
-        raise FitError(
-            f"The y values reach {ymax:.3g} at most, {'above' if ymax > 1 else 'below'} what sums of squares in double "
-            f"precision can hold (about 1e{'' if ymax > 1 else '-'}150); express y in "
-            f"{'larger' if ymax > 1 else 'smaller'} units (rescale it) and fit again."
+            f"The x values span {float(x.min()):.3g} to {float(x.max()):.3g}, a range too wide for double precision "
+            "(its width overflows); express x in larger units (rescale it) and fit again."
         )
     return x, y, w
 
 
-# ----------------------------------------------------------------------------
-# BLAS threads
+def _validate_weights(weights: ArrayLike, n: int) -> np.ndarray:
+    try:
+        w = np.asarray(weights, dtype=np.float64).ravel()
+    except (TypeError, ValueError):
+        raise FitError("Weights must be numbers; pick a numeric weights column.") from None
+    if w.size != n:
+        raise FitError(f"Expected one weight per row; got {w.size} weights for {n} rows.")
+    bad = ~(np.isfinite(w) & (w > 0))
+    if bad.any():
+        raise FitError(
+            f"Weights must be positive and finite; {int(bad.sum())} of {w.size} are not "
+            f"(first at row {int(np.argmax(bad)) + 1}). Fix or drop those rows."
+        )
+    return w
 
-_THREADPOOLS = None
 
+def pow2_exponent(values: np.ndarray) -> int:
+    """k such that values / 2**k keeps sums of squares inside double precision (0 when no scaling is needed).
 
-def single_thread_blas():
-    """Context manager limiting BLAS to one thread (no-op without threadpoolctl).
-
-    The engine's LAPACK calls are tall-skinny (at most 21 columns) or tiny.
-    Threads gain little on them, and on a loaded machine a multi-threaded BLAS
-    call whose helper thread is descheduled waits a whole time slice at each
-    synchronisation: a 10-fold sweep was measured 30x slower that way. The
-    limit is process-wide while it lasts and is restored afterwards.
+    Dividing by an exact power of two changes no digit, so the fit of the scaled values,
+    multiplied back by 2**k, is the fit of the original values.
     """
-    global _THREADPOOLS
-    if _THREADPOOLS is None:
-        try:
-            from threadpoolctl import ThreadpoolController
-
-            _THREADPOOLS = ThreadpoolController()
-        except Exception:  # pragma: no cover - threadpoolctl ships with scikit-learn
-            _THREADPOOLS = False
-    if _THREADPOOLS is False:
-        return contextlib.nullcontext()
-    return _THREADPOOLS.limit(limits=1, user_api="blas")
-
-
-# ----------------------------------------------------------------------------
-# small extended-precision helpers
-
-
-def _solve_rtr(r: np.ndarray, g: np.ndarray) -> np.ndarray:
-    """Solve R^T R u = g in longdouble with a (double) upper-triangular R; g may be 2-D."""
-    r_ld = r.astype(LD)
-    u = np.array(g, dtype=LD)
-    p = r_ld.shape[0]
-    # forward: R^T v = g
-    for i in range(p):
-        u[i] = (u[i] - r_ld[:i, i] @ u[:i]) / r_ld[i, i]
-    # backward: R u = v
-    for i in range(p - 1, -1, -1):
-        u[i] = (u[i] - r_ld[i, i + 1 :] @ u[i + 1 :]) / r_ld[i, i]
-    return u
-
-
-def qr_r(a: np.ndarray) -> np.ndarray:
-    """R of a Householder QR of ``a`` (m, k), padded with zero rows to (k, k) when m < k.
-
-    Calls LAPACK dgeqrf directly and may overwrite ``a`` when it is already a
-    Fortran-ordered float64 array (pass a temporary). Q is never formed.
-    """
-    a = np.asfortranarray(a, dtype=np.float64)
-    m, k = a.shape
-    if m == 0:
-        return np.zeros((k, k))
-    qr, _tau, _work, info = _lapack.dgeqrf(a, overwrite_a=1)
-    if info != 0:  # pragma: no cover - LAPACK argument error
-        raise FitError(f"The QR factorisation failed (LAPACK info {info}); please report this data set.")
-    r = np.triu(qr[: min(m, k)])
-    if r.shape[0] < k:
-        pad = np.zeros((k, k))
-        pad[: r.shape[0]] = r
-        r = pad
-    return r
-
-
-def condition_of(r: np.ndarray) -> float:
-    """2-norm condition number of a triangular factor (inf when singular)."""
-    if r.size == 0:
-        return 1.0
-    sv = np.linalg.svd(r, compute_uv=False)
-    return float(sv[0] / sv[-1]) if sv[-1] > 0 else float("inf")
-
-
-_EPS_LD = float(np.finfo(LD).eps)
-# Fits with at most this many (rows x coefficients) get a last refinement step
-# whose residual and gradient are computed in 50-digit decimals.
-POLISH_LIMIT = 10_000
-_POLISH_CTX = decimal.Context(prec=50)
+    top = float(np.max(np.abs(values))) if np.size(values) else 0.0
+    if top == 0.0 or 2.0**-POW2_SAFE <= top <= 2.0**POW2_SAFE:
+        return 0
+    return int(math.frexp(top)[1])
 
 
 def _times(a, b):
@@ -220,20 +172,6 @@ def _times(a, b):
     if b is None:
         return a
     return a * b
-
-
-def _cholesky_ld(g: np.ndarray) -> np.ndarray | None:
-    """Upper-triangular R with R^T R = g in longdouble, or None if g is not safely positive definite."""
-    p = g.shape[0]
-    r = np.zeros((p, p), dtype=LD)
-    for j in range(p):
-        s = g[j, j] - r[:j, j] @ r[:j, j]
-        if not s > 64 * LD(_EPS_LD) * g[j, j]:
-            return None
-        r[j, j] = np.sqrt(s)
-        if j + 1 < p:
-            r[j, j + 1 :] = (g[j, j + 1 :] - r[:j, j] @ r[:j, j + 1 :]) / r[j, j]
-    return r
 
 
 def _polish_decimal(
@@ -351,6 +289,10 @@ class PolynomialFit:
 
     Evaluation and intervals use the stable Chebyshev form internally; the
     power-basis numbers are for reading, reporting and hand-over.
+
+    ``weighting`` is "none", a named rule (see ``fitting.WEIGHTINGS``) or "column"
+    (weights came from a column). ``plain_rmse`` is the unweighted RMSE of the
+    residuals in y's units; for an unweighted fit it equals ``rmse``.
     """
 
     degree: int
@@ -372,15 +314,17 @@ class PolynomialFit:
     offset: float
     scale: float
     basis_coefficients: np.ndarray
-    basis_inverse_gram: np.ndarray  # (A^T A)^-1 in the Chebyshev basis, unscaled by residual variance
+    basis_inverse_gram: np.ndarray  # (A^T W A)^-1 in the Chebyshev basis, unscaled by residual variance
     warnings: tuple[str, ...] = field(default=())
     x_name: str | None = None
     y_name: str | None = None
     x_unit: str | None = None
     y_unit: str | None = None
+    weighting: str = "none"
+    plain_rmse: float = float("nan")
 
     # -- evaluation ---------------------------------------------------------
-    def _basis_rows(self, x) -> np.ndarray:
+    def _basis_rows(self, x: ArrayLike) -> np.ndarray:
         x = np.asarray(x, dtype=np.float64)
         t = _basis.to_window(x, self.offset, self.scale)
         ncols = self.basis_coefficients.size
@@ -389,7 +333,7 @@ class PolynomialFit:
             a = a * (np.atleast_1d(x) / self.scale)[:, None]
         return a
 
-    def predict(self, x) -> np.ndarray:
+    def predict(self, x: ArrayLike) -> np.ndarray:
         """Fitted values at x (array-like), evaluated in the stable form."""
         x = np.asarray(x, dtype=np.float64)
         t = _basis.to_window(x, self.offset, self.scale)
@@ -398,22 +342,31 @@ class PolynomialFit:
             yhat = yhat * (x / self.scale)
         return yhat
 
-    def outside_domain(self, x) -> np.ndarray:
+    def outside_domain(self, x: ArrayLike) -> np.ndarray:
         """True where x lies outside the x range the model was fitted on."""
         x = np.asarray(x, dtype=np.float64)
         lo, hi = self.domain
         return (x < lo) | (x > hi)
 
-    def standard_error_of_fit(self, x) -> np.ndarray:
+    def standard_error_of_fit(self, x: ArrayLike) -> np.ndarray:
+        """Standard error of the fitted mean at x."""
         a = self._basis_rows(x)
         quad = np.einsum("ij,jk,ik->i", a, self.basis_inverse_gram, a)
         return self.residual_sd * np.sqrt(np.maximum(quad, 0.0))
 
-    def band(self, x, kind: str = "confidence", level: float = 0.95) -> tuple[np.ndarray, np.ndarray]:
+    def weight_at(self, x: ArrayLike) -> np.ndarray:
+        """The weight of a new reading at x: the fit's named rule there (1 for "none" and "column")."""
+        x = np.asarray(x, dtype=np.float64)
+        return weight_at(self.weighting, x, self.predict(x))
+
+    def band(self, x: ArrayLike, kind: str = "confidence", level: float = 0.95) -> tuple[np.ndarray, np.ndarray]:
         """Lower and upper limits of the confidence band (for the mean) or the
         prediction band (for a new single observation) at ``level``.
 
-        With weights, the prediction band is for a new observation of weight 1.
+        A weighted fit's prediction band uses the variance s² / w(x0) of a new reading,
+        with w from the fit's weighting rule (at the fitted response for the 1/y rules).
+        With a weights column the weight at a new x is unknown and taken as 1 (the fit's
+        warnings say so).
         """
         if kind not in ("confidence", "prediction"):
             raise FitError(f'Interval kind must be "confidence" or "prediction", not {kind!r}.')
@@ -426,7 +379,8 @@ class PolynomialFit:
             return nan, nan.copy()
         se = self.standard_error_of_fit(x)
         if kind == "prediction":
-            se = np.sqrt(se**2 + self.residual_sd**2)
+            # hypot: no square leaves double precision, whatever the magnitude of y
+            se = np.hypot(se, self.residual_sd / np.sqrt(weight_at(self.weighting, x, yhat)))
         q = t_quantile(level, self.dof)
         return yhat - q * se, yhat + q * se
 
@@ -446,7 +400,12 @@ class PolynomialFit:
 
     # -- model file ---------------------------------------------------------
     def to_dict(self) -> dict[str, Any]:
-        """The JSON-safe model file that ``degreescope predict`` reads."""
+        """The JSON-safe model file that ``degreescope predict`` reads.
+
+        Version 2 adds "weighting" and "plain_rmse". Read-back needs the residual SD,
+        dof, the stable form (basis, offset, scale, coefficients and inverse Gram
+        matrix) and the calibrated x range ("domain"), all of which it holds.
+        """
         return {
             "format": MODEL_FORMAT,
             "version": MODEL_VERSION,
@@ -463,9 +422,11 @@ class PolynomialFit:
             "r_squared": _num(self.r_squared),
             "adjusted_r_squared": _num(self.adjusted_r_squared),
             "rmse": _num(self.rmse),
+            "plain_rmse": _num(self.plain_rmse),
             "dof": self.dof,
             "rows_used": self.n,
             "weighted": self.weighted,
+            "weighting": self.weighting,
             "condition_number": _num(self.condition_number),
             "domain": [float(self.domain[0]), float(self.domain[1])],
             "stable_form": {
@@ -480,84 +441,114 @@ class PolynomialFit:
 
     @classmethod
     def from_dict(cls, data: dict[str, Any]) -> PolynomialFit:
-        """Rebuild a fit from ``to_dict()`` output; raise FitError on a malformed model."""
+        """Rebuild a fit from ``to_dict()`` output (version 1 or 2); raise FitError on a malformed model."""
         try:
-            if data.get("format") != MODEL_FORMAT:
-                raise FitError(
-                    "This is not a degreescope model file (its 'format' field is missing or different); "
-                    "save one with `degreescope fit ... --save-model`."
-                )
-            if int(data.get("version", 0)) > MODEL_VERSION:
-                raise FitError(
-                    f"This model file has version {data['version']}, newer than this degreescope reads "
-                    f"({MODEL_VERSION}); upgrade degreescope."
-                )
-            sf = data["stable_form"]
-            coef = np.asarray(data["coefficients"], dtype=np.float64)
-            igram = np.asarray(sf["inverse_gram"], dtype=np.float64)
-            bcoef = np.asarray(sf["coefficients"], dtype=np.float64)
-            degree = int(data["degree"])
-            p = degree + 1
-            q = degree if bool(data.get("through_origin", False)) else p  # through the origin: no constant column
-            if igram.shape != (q, q) or coef.shape != (p,) or bcoef.shape != (q,):
-                raise FitError("The model file is inconsistent (array sizes do not match its degree); re-save it.")
-            offset, scale = float(sf["offset"]), float(sf["scale"])
-            domain = (float(data["domain"][0]), float(data["domain"][1]))
-            dof, n = int(data["dof"]), int(data["rows_used"])
-            if not (
-                np.isfinite(bcoef).all()
-                and np.isfinite(igram).all()
-                and math.isfinite(offset)
-                and math.isfinite(scale)
-                and scale > 0
-                and all(math.isfinite(v) for v in domain)
-                and domain[0] < domain[1]
-                and 0 <= dof < n
-                and len(data["domain"]) == 2
-                and not _unnum(data["residual_sd"]) < 0
-            ):
-                raise FitError(
-                    "The model file holds values no fit produces (a missing or infinite coefficient, an empty x "
-                    "range, or impossible row counts); re-save it with degreescope."
-                )
-            warnings = data.get("warnings", [])
-            if not isinstance(warnings, list) or not all(isinstance(w, str) for w in warnings):
-                raise FitError("The model file's 'warnings' must be a list of sentences; re-save it with degreescope.")
-            for key in ("x_name", "y_name", "x_unit", "y_unit"):
-                if data.get(key) is not None and not isinstance(data[key], str):
-                    raise FitError(f"The model file's {key!r} must be text; re-save it with degreescope.")
-            return cls(
-                degree=degree,
-                through_origin=bool(data.get("through_origin", False)),
-                coefficients=coef,
-                standard_errors=np.array([_unnum(v) for v in data["standard_errors"]], dtype=np.float64),
-                covariance=np.array([[_unnum(v) for v in row] for row in data["covariance"]], dtype=np.float64),
-                residual_sd=_unnum(data["residual_sd"]),
-                r_squared=_unnum(data["r_squared"]),
-                adjusted_r_squared=_unnum(data.get("adjusted_r_squared")),
-                rmse=_unnum(data.get("rmse")),
-                dof=dof,
-                n=n,
-                condition_number=_unnum(data.get("condition_number")),
-                domain=domain,
-                rss=float("nan"),
-                weighted=bool(data.get("weighted", False)),
-                offset=offset,
-                scale=scale,
-                basis_coefficients=bcoef,
-                basis_inverse_gram=igram,
-                warnings=tuple(warnings),
-                x_name=data.get("x_name"),
-                y_name=data.get("y_name"),
-                x_unit=data.get("x_unit"),
-                y_unit=data.get("y_unit"),
-            )
+            _check_model_header(data)
+            _check_model_text(data)
+            parts = _model_parts(data)
+            return cls(**parts)
         except FitError:
             raise
         except (KeyError, TypeError, ValueError, IndexError, OverflowError, AttributeError) as exc:
             raise FitError(
                 f"The model file is incomplete or malformed ({exc!s}); re-save it with degreescope."
             ) from None
+
+
+def _check_model_header(data: dict[str, Any]) -> None:
+    if data.get("format") != MODEL_FORMAT:
+        raise FitError(
+            "This is not a degreescope model file (its 'format' field is missing or different); "
+            "save one with `degreescope fit ... --save-model`."
+        )
+    if int(data.get("version", 0)) > MODEL_VERSION:
+        raise FitError(
+            f"This model file has version {data['version']}, newer than this degreescope reads "
+            f"({MODEL_VERSION}); upgrade degreescope."
+        )
+
+
+def _model_parts(data: dict[str, Any]) -> dict[str, Any]:
+    """The checked constructor arguments of a model file."""
+    sf = data["stable_form"]
+    coef = np.asarray(data["coefficients"], dtype=np.float64)
+    igram = np.asarray(sf["inverse_gram"], dtype=np.float64)
+    bcoef = np.asarray(sf["coefficients"], dtype=np.float64)
+    degree = int(data["degree"])
+    through_origin = bool(data.get("through_origin", False))
+    q = degree if through_origin else degree + 1  # through the origin: no constant column
+    if igram.shape != (q, q) or coef.shape != (degree + 1,) or bcoef.shape != (q,):
+        raise FitError("The model file is inconsistent (array sizes do not match its degree); re-save it.")
+    offset, scale = float(sf["offset"]), float(sf["scale"])
+    domain = (float(data["domain"][0]), float(data["domain"][1]))
+    dof, n = int(data["dof"]), int(data["rows_used"])
+    if not (
+        np.isfinite(bcoef).all()
+        and np.isfinite(igram).all()
+        and math.isfinite(offset)
+        and math.isfinite(scale)
+        and scale > 0
+        and all(math.isfinite(v) for v in domain)
+        and domain[0] < domain[1]
+        and 0 <= dof < n
+        and len(data["domain"]) == 2
+        and not _unnum(data["residual_sd"]) < 0
+    ):
+        raise FitError(
+            "The model file holds values no fit produces (a missing or infinite coefficient, an empty x "
+            "range, or impossible row counts); re-save it with degreescope."
+        )
+    weighted = bool(data.get("weighted", False))
+    rmse = _unnum(data.get("rmse"))
+    return dict(
+        degree=degree,
+        through_origin=through_origin,
+        coefficients=coef,
+        standard_errors=np.array([_unnum(v) for v in data["standard_errors"]], dtype=np.float64),
+        covariance=np.array([[_unnum(v) for v in row] for row in data["covariance"]], dtype=np.float64),
+        residual_sd=_unnum(data["residual_sd"]),
+        r_squared=_unnum(data["r_squared"]),
+        adjusted_r_squared=_unnum(data.get("adjusted_r_squared")),
+        rmse=rmse,
+        dof=dof,
+        n=n,
+        condition_number=_unnum(data.get("condition_number")),
+        domain=domain,
+        rss=float("nan"),
+        weighted=weighted,
+        offset=offset,
+        scale=scale,
+        basis_coefficients=bcoef,
+        basis_inverse_gram=igram,
+        warnings=tuple(data.get("warnings", [])),
+        x_name=data.get("x_name"),
+        y_name=data.get("y_name"),
+        x_unit=data.get("x_unit"),
+        y_unit=data.get("y_unit"),
+        weighting=_model_weighting(data, weighted),
+        plain_rmse=_unnum(data.get("plain_rmse")) if "plain_rmse" in data else (float("nan") if weighted else rmse),
+    )
+
+
+def _model_weighting(data: dict[str, Any], weighted: bool) -> str:
+    """The weighting of a model file; version 1 files knew only whether they were weighted."""
+    rule = data.get("weighting")
+    if rule is None:
+        return COLUMN_RULE if weighted else "none"
+    if rule == COLUMN_RULE:
+        return rule
+    if not isinstance(rule, str):
+        raise FitError("The model file's 'weighting' must be text; re-save it with degreescope.")
+    return check_weighting(rule)
+
+
+def _check_model_text(data: dict[str, Any]) -> None:
+    warnings = data.get("warnings", [])
+    if not isinstance(warnings, list) or not all(isinstance(w, str) for w in warnings):
+        raise FitError("The model file's 'warnings' must be a list of sentences; re-save it with degreescope.")
+    for key in ("x_name", "y_name", "x_unit", "y_unit"):
+        if data.get(key) is not None and not isinstance(data[key], str):
+            raise FitError(f"The model file's {key!r} must be text; re-save it with degreescope.")
 
 
 def _num(v: float) -> float | None:
@@ -573,12 +564,49 @@ def _unnum(v) -> float:
 # the fit
 
 
+@dataclass
+class _Design:
+    """The data of one fit in extended precision: basis rows, y, weights and the Gram matrix."""
+
+    x: np.ndarray
+    y: np.ndarray  # scaled by 2**-y_exp
+    w: np.ndarray | None
+    through_origin: bool
+    offset: float
+    scale: float
+    ncols: int
+    rows_ld: np.ndarray  # (ncols, n), unscaled T_j(t_i)
+    y_ld: np.ndarray
+    w_ld: np.ndarray | None
+    v_ld: np.ndarray | None  # x / scale through the origin, else None
+    gram: np.ndarray
+    y_exp: int = 0
+    x_exp: int = 0  # x above is x / 2**x_exp, and offset and scale are in those units
+
+    @property
+    def n(self) -> int:
+        return self.x.size
+
+    def residuals(self, c_ld: np.ndarray) -> np.ndarray:
+        fitted = np.einsum("j,jn->n", c_ld, self.rows_ld)
+        return self.y_ld - (fitted if self.v_ld is None else self.v_ld * fitted)
+
+
+@dataclass
+class _Start:
+    coef: np.ndarray
+    cond: float
+    factor: np.ndarray  # preconditioner R (R^T R ~ Gram matrix)
+    contraction: float
+
+
 def fit_polynomial(
-    x,
-    y,
+    x: ArrayLike,
+    y: ArrayLike,
     degree: int,
     *,
-    weights=None,
+    weights: ArrayLike | None = None,
+    weighting: str | None = None,
     through_origin: bool = False,
     x_name: str | None = None,
     y_name: str | None = None,
@@ -592,16 +620,56 @@ def fit_polynomial(
     x, y : array-like of float, the same length.
     degree : int, >= 0 (>= 1 when ``through_origin``).
     weights : array-like of positive floats, default=None
-        Weights w_i multiply the squared residuals (use 1 / variance).
+        Weights w_i multiply the squared residuals (use 1 / variance). The fit records
+        the weighting "column".
+    weighting : str, default=None
+        A named rule instead of a weights column: "none", "1/x", "1/x2", "1/y", "1/y2"
+        (see ``fitting.WEIGHTINGS``). Its weight at a new x gives the prediction band there.
     through_origin : bool, default=False
         Fit y = b1 x + ... + bd x**d with no constant; R² is then the uncentered one.
+
+    y of any magnitude a double holds is fitted: it is scaled internally by an exact
+    power of two and every reported number is scaled back exactly.
 
     Raises
     ------
     FitError
-        For invalid inputs or a degree the data cannot carry.
+        For invalid inputs, both ``weights`` and ``weighting``, or a degree the data cannot carry.
     """
+    x, y, w, rule = _fit_inputs(x, y, weights, weighting)
+    degree, ncols = _check_degree(x, degree, through_origin)
+    design = _extended_basis(x, y, w, ncols, through_origin)
+    notes: list[str] = []
+    start = _qr_start(design, degree)
+    c_ld, rss_ld, exact = _refine(design, start, degree, notes)
+    inv, inv_dec = _inverse_gram(design.gram, start.factor, None if exact is None else exact[2])
+    stats = _fit_statistics(design, c_ld, rss_ld, degree, notes)
+    coef_pow, cov_pow = _to_power_basis(design, c_ld, exact, inv, inv_dec, stats["sigma2_ld"], degree)
+    if start.cond > 1e10:
+        notes.append(
+            f"The fit at degree {degree} is ill-conditioned (condition number {start.cond:.3g} after mapping x to "
+            "[-1, 1]); small changes in the data move the coefficients a lot."
+        )
+    if rule == COLUMN_RULE:
+        notes.append(COLUMN_INTERVAL_NOTE)
+    parts = dict(degree=degree, cond=start.cond, c_ld=c_ld, inv=inv, rule=rule, notes=notes)
+    names = dict(x_name=x_name, y_name=y_name, x_unit=x_unit, y_unit=y_unit)
+    return _assemble(design, parts, stats, coef_pow, cov_pow, names)
+
+
+def _fit_inputs(x, y, weights, weighting):
+    """Checked x, y, weights and the weighting's name ("none", a rule or "column")."""
+    if weights is not None and weighting is not None:
+        raise FitError("Give either a weights column or a named weighting, not both; drop one of them and fit again.")
     x, y, w = validate_xyw(x, y, weights)
+    if w is not None:
+        return x, y, w, COLUMN_RULE
+    rule = check_weighting(weighting)
+    return x, y, weights_for(rule, x, y), rule
+
+
+def _check_degree(x: np.ndarray, degree, through_origin: bool) -> tuple[int, int]:
+    """The degree as an int and the number of basis columns; raise FitError if the data cannot carry it."""
     try:
         degree = int(degree)
     except (TypeError, ValueError):
@@ -617,85 +685,127 @@ def fit_polynomial(
             f"Degree {degree} needs at least {ncols} distinct x values; the data have {n_distinct}. "
             f"Use degree {n_distinct - 1 + (1 if through_origin else 0)} or lower."
         )
-    n = x.size
-    notes: list[str] = []
-    lo, hi = float(x.min()), float(x.max())
-    if through_origin:
-        offset, scale = domain_for_origin(lo, hi)
-    else:
-        offset, scale = _basis.domain_map(lo, hi)
+    return degree, ncols
 
-    # --- basis rows and normal-equation sums in extended precision (O(n d)) --
-    # Model: y ~ v(x) * sum_j c_j T_j(t), weight w; v = x / scale through the origin, else 1.
+
+def _extended_basis(x, y, w, ncols: int, through_origin: bool) -> _Design:
+    """Basis rows and normal-equation sums in extended precision (O(n d)), y scaled by a power of two.
+
+    Model: y ~ v(x) * sum_j c_j T_j(t), weight w; v = x / scale through the origin, else 1.
+    """
+    x_exp, y_exp = pow2_exponent(x), pow2_exponent(y)
+    x = np.ldexp(x, -x_exp) if x_exp else x
+    ys = np.ldexp(y, -y_exp) if y_exp else y
+    lo, hi = float(x.min()), float(x.max())
+    offset, scale = domain_for_origin(lo, hi) if through_origin else _basis.domain_map(lo, hi)
     x_ld = x.astype(LD)
-    t_ld = (x_ld - LD(offset)) / LD(scale)
-    rows_ld = _basis.chebyshev_rows(t_ld, ncols)  # (ncols, n), unscaled T_j(t_i)
-    y_ld = y.astype(LD)
+    rows_ld = _basis.chebyshev_rows((x_ld - LD(offset)) / LD(scale), ncols)
     w_ld = None if w is None else w.astype(LD)
     v_ld = x_ld / LD(scale) if through_origin else None
-    u_ld = _times(w_ld, v_ld)  # gradient weight w * v
-    m_ld = _times(u_ld, v_ld)  # moment weight w * v**2
+    m_ld = _times(_times(w_ld, v_ld), v_ld)  # moment weight w * v**2
     gram = _gram_from_moments(_basis.chebyshev_moments_from_rows(rows_ld, 2 * ncols - 1, m_ld), ncols)
-    r_ld = _cholesky_ld(gram)
+    return _Design(
+        x=x,
+        y=ys,
+        w=w,
+        through_origin=through_origin,
+        offset=offset,
+        scale=scale,
+        ncols=ncols,
+        rows_ld=rows_ld,
+        y_ld=ys.astype(LD),
+        w_ld=w_ld,
+        v_ld=v_ld,
+        gram=gram,
+        y_exp=y_exp,
+        x_exp=x_exp,
+    )
 
-    # --- Householder QR of the weighted [A | y] in double precision ----------
-    # The only O(n d^2) step. It gives the starting solution and the condition
-    # number without squaring it; the normal equations are never solved.
-    sw = None if w is None else np.sqrt(w)
-    rows = np.empty((ncols + 1, n))
-    rows[:ncols] = rows_ld
-    if through_origin:
-        rows[:ncols] *= x / scale
-    rows[ncols] = y
-    if sw is not None:
-        rows *= sw
+
+def _qr_start(d: _Design, degree: int) -> _Start:
+    """Householder QR of the weighted [A | y] in double precision: starting solution and condition number.
+
+    The only O(n d^2) step; the normal equations are never solved.
+    """
+    ncols = d.ncols
+    rows = np.empty((ncols + 1, d.n))
+    rows[:ncols] = d.rows_ld
+    if d.through_origin:
+        rows[:ncols] *= d.x / d.scale
+    rows[ncols] = d.y
+    if d.w is not None:
+        rows *= np.sqrt(d.w)
     with single_thread_blas():
         r_aug = qr_r(rows.T)
     del rows
     r_qr = r_aug[:ncols, :ncols]
     cond = condition_of(r_qr)
-    coef = np.zeros(ncols, dtype=LD)
-    if np.isfinite(cond) and cond <= 1.0 / (max(n, ncols) * np.finfo(np.float64).eps):
-        coef = solve_triangular(r_qr, r_aug[:ncols, ncols]).astype(LD)
-    # Preconditioner for the corrections: the extended-precision factor of the
-    # Gram matrix, when it exists, contracts the error by cond² eps_ld per step
-    # instead of cond² eps with the double-precision R.
-    if r_ld is not None:
-        factor = r_ld
-        contraction = cond * cond * _EPS_LD * 4 * ncols
-    else:
-        factor = r_qr
-        contraction = cond * cond * np.finfo(np.float64).eps * 4 * ncols
-    if not np.isfinite(cond) or cond > 1.0 / (max(n, ncols) * np.finfo(np.float64).eps):
+    if not np.isfinite(cond) or cond > 1.0 / (max(d.n, ncols) * np.finfo(np.float64).eps):
         msg = (
             f"The design at degree {degree} is numerically rank deficient (condition number {cond:.3g}); "
             "the coefficients are not determined by the data. Use a lower degree."
         )
-        _warnings.warn(msg, RankWarning, stacklevel=2)
+        # the warning reaches callers that filter warnings; the error stops the fit
+        _warnings.warn(msg, RankWarning, stacklevel=3)
         raise FitError(msg)
+    coef = solve_triangular(r_qr, r_aug[:ncols, ncols]).astype(LD)
+    # Preconditioner for the corrections: the extended-precision factor of the Gram matrix, when it
+    # exists, contracts the error by cond² eps_ld per step instead of cond² eps with the double R.
+    r_ld = _cholesky_ld(d.gram)
+    if r_ld is not None:
+        return _Start(coef, cond, r_ld, cond * cond * _EPS_LD * 4 * ncols)
+    return _Start(coef, cond, r_qr, cond * cond * np.finfo(np.float64).eps * 4 * ncols)
 
-    # --- iterative refinement with residuals in extended precision ----------
-    # c <- c + (R^T R)^-1 A^T W (y - A c); each step is two O(n d) passes. The
-    # loop stops as soon as the predicted error of the next step (contraction
-    # times this step) is below rounding, so a well-conditioned fit needs one step.
-    c_ld = np.asarray(coef, dtype=LD)
+
+def _refine(d: _Design, start: _Start, degree: int, notes: list[str]):
+    """Iterative refinement with residuals in extended precision, then decimals on small fits.
+
+    c <- c + (R^T R)^-1 A^T W (y - A c); each step is two O(n d) passes. The loop stops
+    as soon as the predicted error of the next step (contraction times this step) is
+    below rounding, so a well-conditioned fit needs one step.
+    Returns (coefficients in longdouble, RSS, exact) with exact = (decimal coefficients,
+    decimal RSS, decimal Gram matrix) when the decimal polish settled, else None.
+    """
+    c_ld, rss_ld, settled = _refine_ld(d, start)
+    exact = None
+    if d.n * d.ncols <= POLISH_LIMIT:
+        w = None if d.w is None else d.w
+        polished = _polish_decimal(
+            d.x, d.y, w, d.offset, d.scale, d.through_origin, c_ld, start.factor, d.gram,
+            contraction=start.contraction, max_steps=4 if settled else 12,
+        )  # fmt: skip
+        if polished[3]:  # keep the decimal result only when it settled
+            exact = polished[:3]
+            settled = True
+            rss_ld = LD(str(polished[1]))
+    if not settled:
+        notes.append(
+            f"The extended-precision refinement did not settle at degree {degree} (condition number "
+            f"{start.cond:.3g}); the last digits of the coefficients and their standard errors may be inexact."
+        )
+    return c_ld, rss_ld, exact
+
+
+def _refine_ld(d: _Design, start: _Start):
+    """The longdouble refinement loop: (coefficients, RSS, settled)."""
+    c_ld = np.asarray(start.coef, dtype=LD)
     converged = False
     rss_ld = LD(0)
-    grad = np.zeros(ncols, dtype=LD)
     prev_step = None
+    size = step = LD(0)
     for _ in range(8):
-        fitted = np.einsum("j,jn->n", c_ld, rows_ld)
-        res = y_ld - (fitted if v_ld is None else v_ld * fitted)
-        wres = res if w_ld is None else w_ld * res
-        grad = np.einsum("jn,n->j", rows_ld, wres if v_ld is None else v_ld * wres)
-        dc = _solve_rtr(factor, grad)
+        res = d.residuals(c_ld)
+        wres = res if d.w_ld is None else d.w_ld * res
+        grad = np.einsum("jn,n->j", d.rows_ld, wres if d.v_ld is None else d.v_ld * wres)
+        dc = _solve_rtr(start.factor, grad)
         rss_at_c = res @ wres
         c_ld = c_ld + dc
         # RSS at the updated coefficients without another pass over the data
-        rss_ld = rss_at_c - 2 * (dc @ grad) + dc @ (gram @ dc)
+        rss_ld = rss_at_c - 2 * (dc @ grad) + dc @ (d.gram @ dc)
         size = np.max(np.abs(c_ld))
         step = np.max(np.abs(dc))
-        if size == 0 or step <= 4 * _EPS_LD * size or (contraction < 0.5 and contraction * step <= 4 * _EPS_LD * size):
+        tiny = 4 * _EPS_LD * size
+        if size == 0 or step <= tiny or (start.contraction < 0.5 and start.contraction * step <= tiny):
             converged = True
             break
         if prev_step is not None and step > 0.5 * prev_step:
@@ -703,33 +813,12 @@ def fit_polynomial(
         prev_step = step
     # a floor at a relative step below 1e-12 still leaves the coefficients good to ~12 digits
     settled = converged or (size > 0 and step <= 1e-12 * size)
-    rss_ld = max(rss_ld, LD(0))
-    coef_exact = gram_dec = rss_dec = None
-    if n * ncols <= POLISH_LIMIT:
-        polished = _polish_decimal(
-            x,
-            y,
-            w,
-            offset,
-            scale,
-            through_origin,
-            c_ld,
-            factor,
-            gram,
-            contraction=contraction,
-            max_steps=4 if settled else 12,
-        )
-        if polished[3]:  # keep the decimal result only when it settled
-            coef_exact, rss_dec, gram_dec, settled = polished
-            rss_ld = LD(str(rss_dec))
-    if not settled:
-        notes.append(
-            f"The extended-precision refinement did not settle at degree {degree} "
-            f"(condition number {cond:.3g}); the last digits of the coefficients and their standard errors may be inexact."
-        )
-    del rows_ld
+    return c_ld, max(rss_ld, LD(0)), settled
 
-    # --- inverse of the Gram matrix (from moments), refined -----------------
+
+def _inverse_gram(gram: np.ndarray, factor: np.ndarray, gram_dec):
+    """Inverse of the Gram matrix (from moments), refined; plus its decimal refinement when available."""
+    ncols = gram.shape[0]
     eye = np.eye(ncols, dtype=LD)
     inv = _solve_rtr(factor, eye)
     err = np.max(np.abs(eye - gram @ inv))
@@ -744,77 +833,106 @@ def fit_polynomial(
             break
     inv = (inv + inv.T) / 2
     inv_dec = _refine_inverse_decimal(gram_dec, inv, factor) if gram_dec is not None else None
+    return inv, inv_dec
 
-    # --- statistics ---------------------------------------------------------
-    dof = n - ncols
-    rss = float(rss_ld)
+
+def _fit_statistics(d: _Design, c_ld, rss_ld, degree: int, notes: list[str]) -> dict[str, Any]:
+    """Residual SD, R², adjusted R², RMSE and the unweighted RMSE, in the scaled y units."""
+    n, dof = d.n, d.n - d.ncols
     sigma2_ld = rss_ld / LD(dof) if dof > 0 else LD("nan")
-    residual_sd = float(np.sqrt(sigma2_ld)) if dof > 0 else float("nan")
-    yy = y_ld
-    wsum = LD(n) if w_ld is None else np.sum(w_ld)
-    dev = yy if through_origin else yy - (np.sum(yy if w_ld is None else w_ld * yy) / wsum)
-    tss_ld = dev @ dev if w_ld is None else (w_ld * dev) @ dev
+    wsum = LD(n) if d.w_ld is None else np.sum(d.w_ld)
+    yy = d.y_ld
+    dev = yy if d.through_origin else yy - (np.sum(yy if d.w_ld is None else d.w_ld * yy) / wsum)
+    tss_ld = dev @ dev if d.w_ld is None else (d.w_ld * dev) @ dev
+    r2 = adj = float("nan")
     if tss_ld > 0:
         r2 = float(LD(1) - rss_ld / tss_ld)
-        denom_n = n if through_origin else n - 1
+        denom_n = n if d.through_origin else n - 1
         adj = float(LD(1) - (LD(1) - LD(r2)) * LD(denom_n) / LD(dof)) if dof > 0 else float("nan")
     else:
-        r2 = float("nan")
-        adj = float("nan")
         notes.append("y does not vary, so R² is undefined.")
     rmse = float(np.sqrt(rss_ld / wsum))
+    if d.w_ld is None:
+        plain = rmse
+    else:
+        res = d.residuals(c_ld)
+        plain = float(np.sqrt((res @ res) / LD(n)))
     if dof <= 0:
         notes.append(
-            f"Degree {degree} passes through every point ({n} rows, {ncols} coefficients): "
+            f"Degree {degree} passes through every point ({n} rows, {d.ncols} coefficients): "
             "there is no residual scatter left to estimate uncertainty from."
         )
-
-    # --- exact conversion to the power basis --------------------------------
-    conv = _basis.power_conversion(ncols, offset, scale, through_origin)
-    coef_pow = _basis.convert_vector(conv, c_ld if coef_exact is None else coef_exact)
-    if dof > 0:
-        if inv_dec is not None:
-            with decimal.localcontext(_POLISH_CTX):
-                s2 = rss_dec / dof
-                cov_pow = _basis.convert_covariance(conv, inv_dec * s2)
-        else:
-            cov_pow = _basis.convert_covariance(conv, inv * sigma2_ld)
-    else:
-        cov_pow = np.full((degree + 1, degree + 1), np.nan)
-    se_pow = np.sqrt(np.maximum(np.diag(cov_pow), 0.0))
-    if through_origin:
-        se_pow[0] = 0.0
-    if cond > 1e10:
-        notes.append(
-            f"The fit at degree {degree} is ill-conditioned (condition number {cond:.3g} after mapping x to [-1, 1]); "
-            "small changes in the data move the coefficients a lot."
-        )
-
-    return PolynomialFit(
-        degree=degree,
-        through_origin=through_origin,
-        coefficients=coef_pow,
-        standard_errors=se_pow,
-        covariance=cov_pow,
-        residual_sd=residual_sd,
-        r_squared=r2,
-        adjusted_r_squared=adj,
-        rmse=rmse,
+    return dict(
         dof=dof,
-        n=n,
-        condition_number=cond,
-        domain=(lo, hi),
+        rss=float(rss_ld),
+        sigma2_ld=sigma2_ld,
+        residual_sd=float(np.sqrt(sigma2_ld)) if dof > 0 else float("nan"),
+        r2=r2,
+        adj=adj,
+        rmse=rmse,
+        plain_rmse=plain,
+    )
+
+
+def _to_power_basis(d: _Design, c_ld, exact, inv, inv_dec, sigma2_ld, degree: int):
+    """Exact conversion of the coefficients and their covariance to the power basis (scaled y units)."""
+    conv = _basis.power_conversion(d.ncols, d.offset, d.scale, d.through_origin)
+    coef_pow = _basis.convert_vector(conv, c_ld if exact is None else exact[0])
+    dof = d.n - d.ncols
+    if dof <= 0:
+        return coef_pow, np.full((degree + 1, degree + 1), np.nan)
+    if inv_dec is not None:
+        with decimal.localcontext(_POLISH_CTX):
+            return coef_pow, _basis.convert_covariance(conv, inv_dec * (exact[1] / dof))
+    return coef_pow, _basis.convert_covariance(conv, inv * sigma2_ld)
+
+
+def _assemble(d: _Design, parts, stats, coef_pow, cov_pow, names) -> PolynomialFit:
+    """The PolynomialFit, with every scaled number multiplied back exactly.
+
+    Coefficient j of the power basis scales by 2**(y_exp - j x_exp), covariance entry
+    (i, j) by 2**(2 y_exp - (i + j) x_exp), every other y-unit number by 2**y_exp.
+    """
+    k = d.y_exp
+    notes = parts["notes"]
+    powers = np.arange(coef_pow.size)
+    with np.errstate(over="ignore", under="ignore"):
+        coef = np.ldexp(coef_pow, k - d.x_exp * powers)
+        cov = np.ldexp(cov_pow, 2 * k - d.x_exp * (powers[:, None] + powers[None, :]))
+        se_pow = np.ldexp(np.sqrt(np.maximum(np.diag(cov_pow), 0.0)), k - d.x_exp * powers)
+        rss = float(np.ldexp(stats["rss"], 2 * k))
+    lost = np.isfinite(cov_pow) & (cov_pow != 0) & ~((np.abs(cov) >= np.finfo(np.float64).tiny) & np.isfinite(cov))
+    if lost.any():
+        notes.append(
+            "Some entries of the coefficients' covariance lie beyond what double precision holds (about 1e±308) "
+            "and are given as infinite or zero; the standard errors and the intervals are computed without them."
+        )
+    if d.through_origin:
+        se_pow[0] = 0.0
+    return PolynomialFit(
+        degree=parts["degree"],
+        through_origin=d.through_origin,
+        coefficients=coef,
+        standard_errors=se_pow,
+        covariance=cov,
+        residual_sd=float(np.ldexp(stats["residual_sd"], k)),
+        r_squared=stats["r2"],
+        adjusted_r_squared=stats["adj"],
+        rmse=float(np.ldexp(stats["rmse"], k)),
+        dof=stats["dof"],
+        n=d.n,
+        condition_number=parts["cond"],
+        domain=(float(np.ldexp(d.x.min(), d.x_exp)), float(np.ldexp(d.x.max(), d.x_exp))),
         rss=rss,
-        weighted=w is not None,
-        offset=offset,
-        scale=scale,
-        basis_coefficients=c_ld.astype(np.float64),
-        basis_inverse_gram=inv.astype(np.float64),
+        weighted=d.w is not None,
+        offset=float(np.ldexp(d.offset, d.x_exp)),
+        scale=float(np.ldexp(d.scale, d.x_exp)),
+        basis_coefficients=np.ldexp(parts["c_ld"].astype(np.float64), k),
+        basis_inverse_gram=parts["inv"].astype(np.float64),
         warnings=tuple(notes),
-        x_name=x_name,
-        y_name=y_name,
-        x_unit=x_unit,
-        y_unit=y_unit,
+        weighting=parts["rule"],
+        plain_rmse=float(np.ldexp(stats["plain_rmse"], k)),
+        **names,
     )
 
 

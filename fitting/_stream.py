@@ -51,19 +51,16 @@ folds of the other rows do not move.
 
 from __future__ import annotations
 
-import glob as _glob
-import io
 import math
-import os
 import time
 from dataclasses import dataclass, field
-from typing import Callable, Iterator
+from typing import Callable
 
 import numpy as np
 
 from . import _basis
-from ._errors import ColumnError, DegreescopeError, FitError, IntakeError
-from ._polyfit import qr_r
+from ._errors import ColumnError, DegreescopeError, FitError
+from ._polyfit import qr_r, single_thread_blas
 from ._sweep import (
     MAX_DEGREE,
     Block,
@@ -75,13 +72,23 @@ from ._sweep import (
     normalise_degrees,
     sweep_from_blocks,
 )
+from .intake import (
+    FileSource,
+    NeedsText,
+    csv_ranges,
+    first_line,
+    parquet_x_range,
+    pick_source_columns,
+    read_piece,
+    resolve_source,
+    source_chunks,
+)
 
 __all__ = ["sweep_source", "fold_labels", "holdout_mask"]
 
 _GAMMA = np.uint64(0x9E3779B97F4A7C15)
 _M1 = np.uint64(0xBF58476D1CE4E5B9)
 _M2 = np.uint64(0x94D049BB133111EB)
-_PARQUET_SUFFIXES = (".parquet", ".parq", ".pq")
 #: a label whose rows hold more distinct x values than this cannot limit the degree
 _DISTINCT_LIMIT = MAX_DEGREE + 1
 #: bytes per CSV block handed to the dask workers
@@ -171,280 +178,6 @@ def _make_labeller(folds, holdout, seed) -> _Labeller:
     if k < 2:
         raise FitError(f"Cross-validation needs at least 2 folds, not {k}; 5 or 10 are common.")
     return _Labeller("folds", k, 0.0, seed)
-
-
-# ----------------------------------------------------------------------------
-# the source: which files, which format, which columns
-
-
-@dataclass
-class _Source:
-    kind: str  # "csv" or "parquet"
-    paths: list[str]
-    names: list[str]  # all column names
-    numeric: list[str]  # names of the numeric columns (as inferred or stored)
-    skip_rows: int = 0  # CSV: lines before the header
-    data_offset: int = 0  # CSV: byte offset of the first data line
-
-
-def _is_parquet_file(path: str) -> bool:
-    if path.lower().endswith(_PARQUET_SUFFIXES):
-        return True
-    try:
-        with open(path, "rb") as fh:
-            return fh.read(4) == b"PAR1"
-    except OSError:
-        return False
-
-
-def _resolve(source) -> _Source:
-    if isinstance(source, (list, tuple)):
-        raise IntakeError("Give one CSV file, one Parquet file, a folder or a glob pattern, not a list.")
-    try:
-        src = os.fspath(source)
-    except TypeError:
-        raise IntakeError(
-            f"The source must be a file path, folder or glob pattern, not {type(source).__name__}."
-        ) from None
-    if os.path.isdir(src):
-        paths = sorted(
-            p
-            for p in _glob.glob(os.path.join(src, "**", "*"), recursive=True)
-            if os.path.isfile(p) and p.lower().endswith(_PARQUET_SUFFIXES)
-        )
-        if not paths:
-            raise IntakeError(
-                f"The folder {src} holds no Parquet files (*.parquet); point at a file or another folder."
-            )
-        return _parquet_source(paths)
-    if os.path.isfile(src):
-        if _is_parquet_file(src):
-            return _parquet_source([src])
-        return _csv_source(src)
-    if _glob.has_magic(src):
-        paths = sorted(p for p in _glob.glob(src, recursive=True) if os.path.isfile(p))
-        if not paths:
-            raise IntakeError(f"No files match the pattern {src}; check the pattern.")
-        if not all(_is_parquet_file(p) for p in paths):
-            raise IntakeError(f"A pattern must match Parquet files only; {src} also matches other files.")
-        return _parquet_source(paths)
-    raise IntakeError(f"There is no file or folder at {src}; check the path.")
-
-
-def _parquet_source(paths: list[str]) -> _Source:
-    import pyarrow as pa
-    import pyarrow.parquet as pq
-
-    schema = None
-    for p in paths:
-        try:
-            s = pq.read_schema(p)
-        except (pa.ArrowException, OSError) as exc:
-            raise IntakeError(f"{p} cannot be read as Parquet ({_first_line(exc)}).") from None
-        if schema is None:
-            schema = s
-        elif s.names != schema.names:
-            raise IntakeError(
-                f"{p} has other columns than {paths[0]}; a folder or pattern must hold files of one layout."
-            )
-    numeric = [f.name for f in schema if pa.types.is_integer(f.type) or pa.types.is_floating(f.type)]
-    return _Source("parquet", paths, list(schema.names), numeric)
-
-
-def _csv_header(path: str) -> tuple[int, int]:
-    """(lines to skip, byte offset of the header line): skips ``#`` comment lines and blank lines."""
-    skip = 0
-    offset = 0
-    with open(path, "rb") as fh:
-        for raw in fh:
-            text = raw.decode("utf-8", errors="replace")
-            if skip == 0:
-                text = text.lstrip("\ufeff")
-            if text.strip() == "" or text.lstrip().startswith("#"):
-                skip += 1
-                offset += len(raw)
-                if skip > 10_000:
-                    break
-                continue
-            return skip, offset
-    raise IntakeError(f"{path} has no header line and no data; load a file with a header row and data rows.")
-
-
-def _refuse_binary_head(path: str) -> None:
-    """The in-memory reader's binary checks, on the first 64 KiB: a spreadsheet, image or NUL-filled
-    file is refused at once instead of being scanned for a header line."""
-    from ._intake import _SIGNATURES, _binary_error
-
-    with open(path, "rb") as fh:
-        head = fh.read(1 << 16)
-    name = os.path.basename(path) or path
-    for sig, what in _SIGNATURES:
-        if head.startswith(sig):
-            raise _binary_error(name, what)
-    if b"\x00" in head:
-        raise _binary_error(name, "it contains NUL bytes")
-
-
-def _csv_source(path: str) -> _Source:
-    import pyarrow as pa
-    import pyarrow.csv as pcsv
-
-    _refuse_binary_head(path)
-    skip, offset = _csv_header(path)
-    try:
-        reader = pcsv.open_csv(
-            path,
-            read_options=pcsv.ReadOptions(skip_rows=skip, block_size=1 << 20),
-            parse_options=pcsv.ParseOptions(invalid_row_handler=_skip_invalid_row),
-        )
-        schema = reader.schema
-        try:
-            first = reader.read_next_batch()
-        except StopIteration:
-            first = None
-        reader.close()
-    except (pa.ArrowException, OSError, UnicodeDecodeError) as exc:
-        raise IntakeError(f"{path} cannot be read as CSV ({_first_line(exc)}).") from None
-    numeric = []
-    for f in schema:
-        if pa.types.is_integer(f.type) or pa.types.is_floating(f.type):
-            numeric.append(f.name)
-        elif pa.types.is_string(f.type) and first is not None:
-            # a number column with a few bad cells reads as text: call it numeric when most cells are numbers
-            col = first.column(f.name).drop_null()
-            if len(col):
-                parsed = np.isfinite(_as_float(col)).mean()
-                if parsed >= 0.5:
-                    numeric.append(f.name)
-    with open(path, "rb") as fh:
-        fh.seek(offset)
-        header = fh.readline()
-    return _Source("csv", [path], list(schema.names), numeric, skip_rows=skip, data_offset=offset + len(header))
-
-
-def _skip_invalid_row(row) -> str:
-    """pyarrow invalid-row handler: drop lines with the wrong number of fields."""
-    return "skip"
-
-
-def _pick_columns(src: _Source, x, y) -> tuple[str, str]:
-    def check(name, what):
-        if isinstance(name, int) and not isinstance(name, bool):
-            if not 0 <= name < len(src.names):
-                raise ColumnError(
-                    f"There is no column number {name} for {what}; the file has {len(src.names)} columns."
-                )
-            return src.names[name]
-        if name not in src.names:
-            shown = ", ".join(repr(n) for n in src.names[:12])
-            raise ColumnError(f"There is no column {name!r} for {what}; the columns are {shown}.")
-        return name
-
-    if x is None or y is None:
-        free = [c for c in src.numeric if c not in (x, y)]
-        if x is None:
-            if not free:
-                raise ColumnError("The file has no numeric column left for x; name the x column.")
-            x = free.pop(0)
-        if y is None:
-            if not free:
-                raise ColumnError("The file has fewer than two numeric columns; name the x and y columns.")
-            y = free.pop(0)
-    x, y = check(x, "x"), check(y, "y")
-    if x == y:
-        raise ColumnError(f"x and y are both {x!r}; choose two different columns.")
-    return x, y
-
-
-def _first_line(exc: BaseException) -> str:
-    text = str(exc).strip().splitlines()
-    return (text[0] if text else type(exc).__name__).rstrip(".")
-
-
-# ----------------------------------------------------------------------------
-# reading chunks: (x float64, y float64, rows the parser skipped)
-
-
-def _as_float(arr) -> np.ndarray:
-    """A pyarrow array as float64 (nulls and unparseable text become NaN)."""
-    import pyarrow as pa
-
-    if pa.types.is_integer(arr.type) or pa.types.is_floating(arr.type) or pa.types.is_decimal(arr.type):
-        return np.asarray(arr.cast(pa.float64()).to_numpy(zero_copy_only=False), dtype=np.float64)
-    if pa.types.is_null(arr.type):
-        return np.full(len(arr), np.nan)
-    import pandas as pd
-
-    return pd.to_numeric(pd.Series(arr.to_numpy(zero_copy_only=False)), errors="coerce").to_numpy(
-        dtype=np.float64, na_value=np.nan
-    )
-
-
-class _Counter:
-    def __init__(self):
-        self.invalid = 0
-
-    def __call__(self, row) -> str:
-        self.invalid += 1
-        return "skip"
-
-
-def _csv_chunks(
-    src: _Source, x: str, y: str, chunk_rows: int, as_text: bool
-) -> Iterator[tuple[np.ndarray, np.ndarray, int]]:
-    import pyarrow as pa
-    import pyarrow.csv as pcsv
-
-    path = src.paths[0]
-    block = int(min(max(chunk_rows * 24, 1 << 16), 64 << 20))
-    kind = pa.string() if as_text else pa.float64()
-    counter = _Counter()
-    try:
-        reader = pcsv.open_csv(
-            path,
-            read_options=pcsv.ReadOptions(skip_rows=src.skip_rows, block_size=block),
-            parse_options=pcsv.ParseOptions(invalid_row_handler=counter),
-            convert_options=pcsv.ConvertOptions(include_columns=[x, y], column_types={x: kind, y: kind}),
-        )
-        seen = 0
-        for batch in reader:
-            new_invalid = counter.invalid - seen
-            seen = counter.invalid
-            yield _as_float(batch.column(x)), _as_float(batch.column(y)), new_invalid
-    except pa.ArrowInvalid as exc:
-        if not as_text and "conversion error" in str(exc).lower():
-            raise _NeedsText() from None
-        raise IntakeError(f"{path} cannot be read as CSV ({_first_line(exc)}).") from None
-    except (pa.ArrowException, OSError) as exc:
-        raise IntakeError(f"{path} cannot be read as CSV ({_first_line(exc)}).") from None
-
-
-class _NeedsText(Exception):
-    """A column holds text; read it as strings and convert per value."""
-
-
-def _parquet_chunks(src: _Source, x: str, y: str, chunk_rows: int) -> Iterator[tuple[np.ndarray, np.ndarray, int]]:
-    import pyarrow as pa
-    import pyarrow.parquet as pq
-
-    for p in src.paths:
-        try:
-            pf = pq.ParquetFile(p)
-            for batch in pf.iter_batches(batch_size=max(int(chunk_rows), 1), columns=[x, y], use_threads=True):
-                yield _as_float(batch.column(x)), _as_float(batch.column(y)), 0
-        except (pa.ArrowException, OSError) as exc:
-            raise IntakeError(f"{p} cannot be read as Parquet ({_first_line(exc)}).") from None
-
-
-def _rechunk(chunks, chunk_rows: int):
-    """Re-cut a stream of (x, y, invalid) into pieces of at most ``chunk_rows`` rows."""
-    for xa, ya, invalid in chunks:
-        n = xa.shape[0]
-        if n <= chunk_rows:
-            yield xa, ya, invalid
-            continue
-        for a in range(0, n, chunk_rows):
-            yield xa[a : a + chunk_rows], ya[a : a + chunk_rows], invalid if a == 0 else 0
 
 
 # ----------------------------------------------------------------------------
@@ -641,10 +374,10 @@ def sweep_source(
     if progress is not None and not callable(progress):
         raise FitError("progress must be a function of (rows_done, rows_total), or None.")
 
-    src = _resolve(source)
-    xname, yname = _pick_columns(src, x, y)
+    src = resolve_source(source)
+    xname, yname = pick_source_columns(src, x, y)
     ncols = degs[-1] + 1
-    with _one_blas_thread():
+    with single_thread_blas():
         if engine == "dask":
             blocks, stats, info = _run_dask(src, xname, yname, ncols, labeller, scheduler, progress)
         else:
@@ -668,77 +401,26 @@ def sweep_source(
     return result, out
 
 
-def _one_blas_thread():
-    """Run BLAS/LAPACK on one thread while reducing chunks.
-
-    The QR of a tall, 14-column chunk gains almost nothing from BLAS threads,
-    and their spinning competes with pyarrow's parser threads and any other
-    work on the machine: on 2 busy cores the 10M-row sweep took 5.3 s with the
-    default threads and 2.5 s with one. threadpoolctl comes with scikit-learn.
-    """
-    try:
-        from threadpoolctl import threadpool_limits
-    except ImportError:  # pragma: no cover - scikit-learn depends on it
-        import contextlib
-
-        return contextlib.nullcontext()
-    return threadpool_limits(limits=1, user_api="blas")
+def _no_rows_error(xname: str, yname: str) -> ColumnError:
+    return ColumnError(
+        f"The columns {xname!r} and {yname!r} hold no rows where both are finite numbers; choose other columns."
+    )
 
 
 def _finish(blocks, stats, degs, ncols, labeller, offset, scale, notes, xname, yname) -> DegreeSweep:
+    """The DegreeSweep of the per-label factors: splits, the distinct-x degree cap, the statistics."""
     if stats.rows_used == 0:
-        raise ColumnError(
-            f"The columns {xname!r} and {yname!r} hold no rows where both are finite numbers; choose other columns."
-        )
+        raise _no_rows_error(xname, yname)
     if stats.xmax <= stats.xmin:
         raise FitError("x has fewer than two distinct values; a curve needs at least two. Choose another x column.")
+    splits, scheme = _splits(blocks, stats, labeller, notes)
     present = sorted(blocks)
-    if labeller.kind == "folds":
-        if labeller.k > stats.rows_used:
-            raise FitError(
-                f"Cannot make {labeller.k} folds from {stats.rows_used} rows; use at most {stats.rows_used} folds (10 is common)."
-            )
-        if len(present) < 2:
-            raise FitError("Fewer than 2 folds received rows; use fewer folds or more data.")
-        empty = [lab for lab in range(labeller.k) if lab not in blocks]
-        if empty:
-            notes.append(
-                f"{len(empty)} of {labeller.k} folds received no rows and were left out; use fewer folds for so few rows."
-            )
-        splits = [Split(test=(j,), train=tuple(o for o in present if o != j)) for j in present]
-        scheme = f"{labeller.k}-fold cross-validation by row hash (seed {labeller.seed})"
-    else:
-        n_test = blocks[1].n if 1 in blocks else 0
-        n_train = blocks[0].n if 0 in blocks else 0
-        if n_test < 1 or n_train < 2:
-            raise FitError(
-                f"A {labeller.fraction:.0%} holdout of {stats.rows_used} rows leaves {n_train} for training and "
-                f"{n_test} for testing; use a different fraction or more data."
-            )
-        splits = [Split(test=(1,), train=(0,))]
-        scheme = f"{labeller.fraction:.0%} holdout by row hash (seed {labeller.seed})"
-
-    # cap the degrees by the distinct x values of the smallest training set (as the in-memory sweep does)
-    def distinct_of(labels):
-        u = np.empty(0)
-        for lab in labels:
-            u = _union_distinct(u, stats.distinct.get(lab, np.empty(0)))
-            if u is None:
-                return None
-        return u.size
-
-    cap = MAX_DEGREE
-    for lab_set in [present] + [s.train for s in splits]:
-        d = distinct_of(lab_set)
-        if d is not None:
-            cap = min(cap, d - 1)
-    cap = max(cap, 0)
+    cap = _distinct_cap(stats, [present] + [s.train for s in splits])
     if degs[-1] > cap:
         degs = cap_degrees(degs, cap, notes)
         p = degs[-1] + 1
         blocks = {lab: _shrink(b, p, ncols) for lab, b in blocks.items()}
         ncols = p
-
     display_block = None
     display_domain = (stats.xmin, stats.xmax)
     if labeller.kind == "holdout":
@@ -761,86 +443,79 @@ def _finish(blocks, stats, degs, ncols, labeller, offset, scale, notes, xname, y
     )
 
 
+def _splits(blocks, stats, labeller, notes) -> tuple[list[Split], str]:
+    """The train/test splits over the labels that received rows, and the scheme's wording."""
+    present = sorted(blocks)
+    if labeller.kind == "folds":
+        if labeller.k > stats.rows_used:
+            raise FitError(
+                f"Cannot make {labeller.k} folds from {stats.rows_used} rows; "
+                f"use at most {stats.rows_used} folds (10 is common)."
+            )
+        if len(present) < 2:
+            raise FitError("Fewer than 2 folds received rows; use fewer folds or more data.")
+        empty = [lab for lab in range(labeller.k) if lab not in blocks]
+        if empty:
+            notes.append(
+                f"{len(empty)} of {labeller.k} folds received no rows and were left out; "
+                f"use fewer folds for so few rows."
+            )
+        splits = [Split(test=(j,), train=tuple(o for o in present if o != j)) for j in present]
+        return splits, f"{labeller.k}-fold cross-validation by row hash (seed {labeller.seed})"
+    n_test = blocks[1].n if 1 in blocks else 0
+    n_train = blocks[0].n if 0 in blocks else 0
+    if n_test < 1 or n_train < 2:
+        raise FitError(
+            f"A {labeller.fraction:.0%} holdout of {stats.rows_used} rows leaves {n_train} for training and "
+            f"{n_test} for testing; use a different fraction or more data."
+        )
+    return [Split(test=(1,), train=(0,))], f"{labeller.fraction:.0%} holdout by row hash (seed {labeller.seed})"
+
+
+def _distinct_cap(stats, label_sets) -> int:
+    """The highest degree every training set (and all rows) can carry: distinct x values - 1."""
+
+    cap = MAX_DEGREE
+    for labels in label_sets:
+        u = np.empty(0)
+        for lab in labels:
+            u = _union_distinct(u, stats.distinct.get(lab, np.empty(0)))
+            if u is None:
+                break
+        if u is not None:
+            cap = min(cap, u.size - 1)
+    return max(cap, 0)
+
+
 # ----------------------------------------------------------------------------
-# the numpy engine: one process, chunk by chunk
+# the pass loop both engines share: fix the x range, then reduce until it holds
 
 
-def _chunks(src: _Source, x, y, chunk_rows, as_text):
-    if src.kind == "csv":
-        return _rechunk(_csv_chunks(src, x, y, chunk_rows, as_text), chunk_rows)
-    return _rechunk(_parquet_chunks(src, x, y, chunk_rows), chunk_rows)
+def _run_passes(engine, src: FileSource, x: str, y: str, ncols: int, labeller: _Labeller):
+    """Scan for the x range (or take Parquet statistics), then reduce; redo when the range moved.
 
-
-def _parquet_range(src: _Source, x: str, y: str):
-    """(rows, lo, hi) of x from row-group statistics, or None when they cannot be trusted."""
-    import pyarrow.parquet as pq
-
-    total, lo, hi = 0, math.inf, -math.inf
-    for p in src.paths:
-        md = pq.ParquetFile(p).metadata
-        names = [md.schema.column(i).name for i in range(md.num_columns)]
-        if x not in names or y not in names:
-            return None
-        ix = names.index(x)
-        for g in range(md.num_row_groups):
-            rg = md.row_group(g)
-            total += rg.num_rows
-            if rg.num_rows == 0:
-                continue
-            st = rg.column(ix).statistics
-            if st is None or not st.has_min_max:
-                return None
-            try:
-                a, b = float(st.min), float(st.max)
-            except (TypeError, ValueError):
-                return None
-            if not (math.isfinite(a) and math.isfinite(b)):
-                return None
-            lo, hi = min(lo, a), max(hi, b)
-    if total == 0 or not hi > lo:
-        return None
-    return total, lo, hi
-
-
-def _run_numpy(src, x, y, ncols, labeller, chunk_rows, progress):
+    ``engine.scan(as_text)`` returns the merged scan statistics, or None when a column
+    holds text and must be read as strings; ``engine.reduce(plan, as_text, total)``
+    returns (per-label blocks, statistics, pieces).
+    """
     passes = 0
     as_text = False
-    total = None
-    rng = _parquet_range(src, x, y) if src.kind == "parquet" else None
+    rng = parquet_x_range(src, x, y) if src.kind == "parquet" else None
     if rng is not None:
         total, lo, hi = rng
     else:
-        while True:
-            scan = _Stats()
+        scan = None
+        while scan is None:
             passes += 1
-            try:
-                for xa, ya, invalid in _chunks(src, x, y, max(chunk_rows, 1 << 20), as_text):
-                    _scan_chunk(xa, ya, invalid, scan)
-                    if progress is not None:
-                        progress(scan.rows_read, None)
-            except _NeedsText:
-                as_text = True
-                continue
-            break
+            scan = engine.scan(as_text)
+            as_text = as_text or scan is None
         if scan.rows_used == 0:
-            raise ColumnError(
-                f"The columns {x!r} and {y!r} hold no rows where both are finite numbers; choose other columns."
-            )
+            raise _no_rows_error(x, y)
         total, lo, hi = scan.rows_read, scan.xmin, scan.xmax
     while True:
-        offset, scale = _basis.domain_map(lo, hi)
-        plan = _Plan(ncols, offset, scale, labeller)
-        blocks: dict = {}
-        stats = _Stats()
-        pieces = 0
         passes += 1
-        start = 0
-        for xa, ya, invalid in _chunks(src, x, y, chunk_rows, as_text):
-            _reduce_chunk(xa, ya, start, invalid, plan, blocks, stats)
-            start += xa.shape[0]
-            pieces += 1
-            if progress is not None:
-                progress(stats.rows_read, total)
+        offset, scale = _basis.domain_map(lo, hi)
+        blocks, stats, pieces = engine.reduce(_Plan(ncols, offset, scale, labeller), as_text, total)
         if stats.rows_used and (stats.xmin, stats.xmax) != (lo, hi):
             # the statistics covered rows that were dropped: redo with the exact map
             lo, hi = stats.xmin, stats.xmax
@@ -848,6 +523,46 @@ def _run_numpy(src, x, y, ncols, labeller, chunk_rows, progress):
                 continue
         break
     return blocks, stats, {"offset": offset, "scale": scale, "passes": passes, "pieces": pieces}
+
+
+# ----------------------------------------------------------------------------
+# the numpy engine: one process, chunk by chunk
+
+
+@dataclass
+class _NumpyPasses:
+    src: FileSource
+    x: str
+    y: str
+    chunk_rows: int
+    progress: Progress | None
+
+    def scan(self, as_text: bool) -> _Stats | None:
+        scan = _Stats()
+        try:
+            for xa, ya, invalid in source_chunks(self.src, self.x, self.y, max(self.chunk_rows, 1 << 20), as_text):
+                _scan_chunk(xa, ya, invalid, scan)
+                if self.progress is not None:
+                    self.progress(scan.rows_read, None)
+        except NeedsText:
+            return None
+        return scan
+
+    def reduce(self, plan: _Plan, as_text: bool, total):
+        blocks: dict = {}
+        stats = _Stats()
+        pieces = start = 0
+        for xa, ya, invalid in source_chunks(self.src, self.x, self.y, self.chunk_rows, as_text):
+            _reduce_chunk(xa, ya, start, invalid, plan, blocks, stats)
+            start += xa.shape[0]
+            pieces += 1
+            if self.progress is not None:
+                self.progress(stats.rows_read, total)
+        return blocks, stats, pieces
+
+
+def _run_numpy(src, x, y, ncols, labeller, chunk_rows, progress):
+    return _run_passes(_NumpyPasses(src, x, y, chunk_rows, progress), src, x, y, ncols, labeller)
 
 
 # ----------------------------------------------------------------------------
@@ -880,7 +595,7 @@ def _dask_client(scheduler):
             client = distributed.Client(scheduler, set_as_default=False, timeout=_CONNECT_TIMEOUT)
         except (OSError, TimeoutError) as exc:
             raise FitError(
-                f"Cannot reach the dask scheduler at {scheduler} ({_first_line(exc)}); check the address."
+                f"Cannot reach the dask scheduler at {scheduler} ({first_line(exc)}); check the address."
             ) from None
         return client, [client]
     raise FitError(
@@ -888,65 +603,10 @@ def _dask_client(scheduler):
     )
 
 
-def _csv_ranges(src: _Source, block: int) -> list[tuple[int, int]]:
-    """Byte ranges of the data lines, each ending at a line end (quoted line breaks are not supported)."""
-    path = src.paths[0]
-    size = os.path.getsize(path)
-    cuts = [src.data_offset]
-    with open(path, "rb") as fh:
-        pos = src.data_offset + block
-        while pos < size:
-            fh.seek(pos)
-            fh.readline()
-            nxt = fh.tell()
-            if nxt >= size:
-                break
-            cuts.append(nxt)
-            pos = nxt + block
-    cuts.append(size)
-    return [(a, b) for a, b in zip(cuts[:-1], cuts[1:], strict=False) if b > a]
-
-
-def _read_piece(kind: str, path: str, part, x: str, y: str, names: list[str], as_text: bool):
-    """The (x, y, invalid) arrays of one partition: a Parquet row group or a CSV byte range."""
-    import pyarrow as pa
-
-    if kind == "parquet":
-        import pyarrow.parquet as pq
-
-        try:
-            table = pq.ParquetFile(path).read_row_group(int(part), columns=[x, y])
-        except (pa.ArrowException, OSError) as exc:
-            raise IntakeError(f"{path} cannot be read as Parquet ({_first_line(exc)}).") from None
-        return _as_float(table.column(x).combine_chunks()), _as_float(table.column(y).combine_chunks()), 0
-    import pyarrow.csv as pcsv
-
-    a, b = part
-    with open(path, "rb") as fh:
-        fh.seek(a)
-        data = fh.read(b - a)
-    counter = _Counter()
-    ktype = pa.string() if as_text else pa.float64()
-    try:
-        table = pcsv.read_csv(
-            io.BytesIO(data),
-            read_options=pcsv.ReadOptions(
-                column_names=names, block_size=max(len(data) + 1, 1 << 16), use_threads=False
-            ),
-            parse_options=pcsv.ParseOptions(invalid_row_handler=counter),
-            convert_options=pcsv.ConvertOptions(include_columns=[x, y], column_types={x: ktype, y: ktype}),
-        )
-    except pa.ArrowInvalid as exc:
-        if not as_text and "conversion error" in str(exc).lower():
-            raise _NeedsText() from None
-        raise IntakeError(f"{path} cannot be read as CSV ({_first_line(exc)}).") from None
-    return _as_float(table.column(x).combine_chunks()), _as_float(table.column(y).combine_chunks()), counter.invalid
-
-
 def _dask_scan_task(kind, path, part, x, y, names, as_text):
     try:
-        xa, ya, invalid = _read_piece(kind, path, part, x, y, names, as_text)
-    except _NeedsText:
+        xa, ya, invalid = read_piece(kind, path, part, x, y, names, as_text)
+    except NeedsText:
         return "text"
     s = _Stats()
     _scan_chunk(xa, ya, invalid, s)
@@ -954,82 +614,83 @@ def _dask_scan_task(kind, path, part, x, y, names, as_text):
 
 
 def _dask_reduce_task(kind, path, part, start, x, y, names, as_text, plan):
-    xa, ya, invalid = _read_piece(kind, path, part, x, y, names, as_text)
+    xa, ya, invalid = read_piece(kind, path, part, x, y, names, as_text)
     blocks: dict = {}
     stats = _Stats()
     _reduce_chunk(xa, ya, int(start), invalid, plan, blocks, stats)
     return blocks, stats
 
 
-def _run_dask(src, x, y, ncols, labeller, scheduler, progress):
+def _dask_pieces(src: FileSource) -> list[tuple]:
+    """(path, part, rows or None) per task: Parquet row groups, or CSV byte ranges."""
+    if src.kind != "parquet":
+        return [(src.paths[0], r, None) for r in csv_ranges(src, _DASK_CSV_BLOCK)]
     import pyarrow.parquet as pq
 
-    client, to_close = _dask_client(scheduler)
-    try:
-        if src.kind == "parquet":
-            pieces = []
-            for p in src.paths:
-                md = pq.ParquetFile(p).metadata
-                pieces += [(p, g, md.row_group(g).num_rows) for g in range(md.num_row_groups)]
-        else:
-            pieces = [(src.paths[0], r, None) for r in _csv_ranges(src, _DASK_CSV_BLOCK)]
-        passes = 0
-        as_text = False
-        rng = _parquet_range(src, x, y) if src.kind == "parquet" else None
-        counts = [n for _, _, n in pieces]
-        if rng is not None:
-            total, lo, hi = rng
-        else:
-            while True:
-                passes += 1
-                futs = [
-                    client.submit(_dask_scan_task, src.kind, p, part, x, y, src.names, as_text, pure=False)
-                    for p, part, _ in pieces
-                ]
-                scans = client.gather(futs)
-                if any(isinstance(s, str) for s in scans):
-                    as_text = True
-                    continue
-                break
-            scan = _Stats()
-            for s in scans:
-                scan.merge(s)
-            if scan.rows_used == 0:
-                raise ColumnError(
-                    f"The columns {x!r} and {y!r} hold no rows where both are finite numbers; choose other columns."
-                )
-            counts = [s.rows_read for s in scans]
-            total, lo, hi = scan.rows_read, scan.xmin, scan.xmax
-        starts = np.concatenate([[0], np.cumsum(counts)[:-1]]).astype(np.int64)
+    pieces = []
+    for p in src.paths:
+        md = pq.ParquetFile(p).metadata
+        pieces += [(p, g, md.row_group(g).num_rows) for g in range(md.num_row_groups)]
+    return pieces
+
+
+@dataclass
+class _DaskPasses:
+    client: object
+    src: FileSource
+    x: str
+    y: str
+    pieces: list
+    progress: Progress | None
+
+    def __post_init__(self):
+        self.counts = [n for _, _, n in self.pieces]  # rows per piece, known after a scan
+
+    def _submit(self, fn, *args):
+        return self.client.submit(fn, *args, pure=False)
+
+    def scan(self, as_text: bool) -> _Stats | None:
+        args = (self.x, self.y, self.src.names, as_text)
+        futs = [self._submit(_dask_scan_task, self.src.kind, p, part, *args) for p, part, _ in self.pieces]
+        scans = self.client.gather(futs)
+        if any(isinstance(s, str) for s in scans):
+            return None
+        scan = _Stats()
+        for s in scans:
+            scan.merge(s)
+        self.counts = [s.rows_read for s in scans]
+        return scan
+
+    def reduce(self, plan: _Plan, as_text: bool, total):
         import distributed
 
-        while True:
-            passes += 1
-            offset, scale = _basis.domain_map(lo, hi)
-            plan = _Plan(ncols, offset, scale, labeller)
-            futs = [
-                client.submit(_dask_reduce_task, src.kind, p, part, int(s0), x, y, src.names, as_text, plan, pure=False)
-                for (p, part, _), s0 in zip(pieces, starts, strict=False)
-            ]
-            blocks: dict = {}
-            stats = _Stats()
-            for fut in distributed.as_completed(futs, loop=client.loop):
-                b, s = fut.result()
-                _merge_blocks(blocks, b)
-                stats.merge(s)
-                if progress is not None:
-                    progress(stats.rows_read, total)
-            if stats.rows_used and (stats.xmin, stats.xmax) != (lo, hi):
-                lo, hi = stats.xmin, stats.xmax
-                if hi > lo:
-                    continue
-            break
-        return blocks, stats, {"offset": offset, "scale": scale, "passes": passes, "pieces": len(pieces)}
+        starts = np.concatenate([[0], np.cumsum(self.counts)[:-1]]).astype(np.int64)
+        kind, x, y, names = self.src.kind, self.x, self.y, self.src.names
+        futs = [
+            self._submit(_dask_reduce_task, kind, p, part, int(s0), x, y, names, as_text, plan)
+            for (p, part, _), s0 in zip(self.pieces, starts, strict=False)
+        ]
+        blocks: dict = {}
+        stats = _Stats()
+        for fut in distributed.as_completed(futs, loop=self.client.loop):
+            b, s = fut.result()
+            _merge_blocks(blocks, b)
+            stats.merge(s)
+            if self.progress is not None:
+                self.progress(stats.rows_read, total)
+        return blocks, stats, len(self.pieces)
+
+
+def _run_dask(src, x, y, ncols, labeller, scheduler, progress):
+    client, to_close = _dask_client(scheduler)
+    try:
+        engine = _DaskPasses(client, src, x, y, _dask_pieces(src), progress)
+        return _run_passes(engine, src, x, y, ncols, labeller)
     except DegreescopeError:
         raise
     except Exception as exc:  # a worker or scheduler failure: one sentence, with its first line
         raise FitError(
-            f"The dask computation failed ({_first_line(exc)}); check the cluster and the source path."
+            f"The dask computation failed ({first_line(exc)}); check the cluster and the source path."
         ) from None
     finally:
         for obj in to_close:

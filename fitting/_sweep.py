@@ -16,10 +16,15 @@ to the highest at once). Everything else is done on these small factors:
   Q is orthogonal: the test error needs no pass over the test rows either.
 
 The results equal a plain refit on every (degree, fold) to rounding error;
-tests check this against scikit-learn's KFold and PredefinedSplit.
+tests check this against scikit-learn's KFold and PredefinedSplit. The shuffled folds
+and holdouts are scikit-learn's KFold, RepeatedKFold and ShuffleSplit row for row
+(``kfold_labels``, ``shuffle_holdout_labels``), made without importing scikit-learn.
+
+Extreme magnitudes: y is divided by an exact power of two before any sum of
+squares (``_polyfit.pow2_exponent``) and every reported error is multiplied back.
 
 BLAS runs single-threaded for the duration of ``sweep_degrees`` (see
-``_polyfit.single_thread_blas``): its LAPACK calls are tall-skinny or tiny, and
+``_linalg.single_thread_blas``): its LAPACK calls are tall-skinny or tiny, and
 multi-threaded BLAS on a loaded machine made a 10-fold sweep 30x slower.
 Callers of ``sweep_from_blocks`` and ``block_factor`` may do the same.
 
@@ -38,11 +43,14 @@ from dataclasses import dataclass, field
 from typing import Any, Iterable
 
 import numpy as np
+from numpy.typing import ArrayLike
 from scipy.linalg import solve_triangular
 
 from . import _basis
 from ._errors import FitError
-from ._polyfit import condition_of, qr_r, single_thread_blas, t_quantile, validate_xyw
+from ._linalg import condition_of, qr_r, single_thread_blas, t_quantile
+from ._polyfit import pow2_exponent, validate_xyw
+from ._validate import MAX_DEGREE, MAX_SEED, check_degrees, check_folds, check_holdout, check_repeats, check_seed
 
 __all__ = [
     "DegreeSweep",
@@ -54,15 +62,21 @@ __all__ = [
     "normalise_degrees",
     "cap_degrees",
     "holdout_fraction",
+    "kfold_labels",
+    "shuffle_holdout_labels",
+    "MAX_DEGREE",
+    "MAX_SEED",
 ]
 
-MAX_DEGREE = 20
 # thresholds for diagnoses: common practice, no source; chosen for this tool
 CONDITION_LIMIT = 1e8  # condition number of the mapped Chebyshev design
 OSCILLATION_FACTOR = 0.5  # curve beyond the y range by more than half the range
 BAND_INFLATION_LIMIT = 3.0  # confidence band (1 SE) above 3x the residual SD between points
 NO_SE_RISE = 0.10  # with no SE, a 10 % rise over the minimum counts as a rise
-MAX_SEED = 2**32 - 1  # the largest seed numpy's RandomState (behind scikit-learn's splitters) accepts
+
+# the names the streaming sweep imports from here
+holdout_fraction = check_holdout
+normalise_degrees = check_degrees
 
 
 @dataclass
@@ -159,6 +173,10 @@ class DegreeSweep:
     display_r: np.ndarray | None = None
     display_n: int = 0
     display_domain: tuple[float, float] = (0.0, 1.0)
+    # display_r holds y divided by 2**y_exp (extreme magnitudes); every reported number is in y's units
+    y_exp: int = 0
+    # the rule that chose the verdict, as a sentence (set by ``verdict_sweep``)
+    verdict_rule: str = ""
 
     def index(self, degree: int) -> int:
         hits = np.nonzero(self.degrees == int(degree))[0]
@@ -174,15 +192,15 @@ class DegreeSweep:
         r = self.display_r[:p, :p]
         rss = float(np.sum(self.display_r[p:, -1] ** 2))
         dof = self.display_n - p
-        sd = math.sqrt(rss / dof) if dof > 0 else float("nan")
+        sd = math.ldexp(math.sqrt(rss / dof), self.y_exp) if dof > 0 else float("nan")
         return self.display_coefficients[degree], r, sd, dof
 
-    def curve(self, degree: int, x) -> np.ndarray:
+    def curve(self, degree: int, x: ArrayLike) -> np.ndarray:
         """The display fit of ``degree`` evaluated at x."""
         coef, _, _, _ = self._display_parts(degree)
         return _basis.chebyshev_values(_basis.to_window(x, self.offset, self.scale), coef)
 
-    def band(self, degree: int, x, kind: str = "confidence", level: float = 0.95):
+    def band(self, degree: int, x: ArrayLike, kind: str = "confidence", level: float = 0.95):
         """(lower, upper) confidence or prediction band of the display fit (double precision)."""
         coef, r, sd, dof = self._display_parts(degree)
         x = np.asarray(x, dtype=np.float64)
@@ -195,7 +213,7 @@ class DegreeSweep:
         u = solve_triangular(r, a.T, trans="T")
         se = sd * np.sqrt(np.sum(u * u, axis=0))
         if kind == "prediction":
-            se = np.sqrt(se**2 + sd**2)
+            se = np.hypot(se, sd)  # no square leaves double precision
         elif kind != "confidence":
             raise FitError(f'Interval kind must be "confidence" or "prediction", not {kind!r}.')
         q = t_quantile(level, dof)
@@ -233,6 +251,7 @@ class DegreeSweep:
             "warnings": list(self.warnings),
             "degree_warnings": {str(k): list(v) for k, v in self.degree_warnings.items()},
             "failed_degrees": {str(k): v for k, v in self.failed_degrees.items()},
+            "verdict_rule": self.verdict_rule,
         }
 
 
@@ -240,84 +259,89 @@ class DegreeSweep:
 # splitting
 
 
-def holdout_fraction(holdout) -> float:
-    """The holdout as a test fraction strictly between 0 and 1; raise FitError otherwise."""
-    try:
-        frac = float(holdout)
-    except (TypeError, ValueError):
-        frac = float("nan")
-    if not (0.0 < frac < 1.0):
-        raise FitError(f"The holdout must be a fraction between 0 and 1 (e.g. 0.25), not {holdout!r}.")
-    return frac
-
-
 def _partition(x, *, folds, holdout, ordered, repeats, seed):
-    """Return (labels_per_partition, splits_per_partition, scheme) for the rows.
-
-    Each partition is an int label per row (-1: always in training) with a list
-    of Splits over those labels.
+    """Return (partitions, scheme): each partition is an int label per row (-1: always in
+    training) with a list of Splits over those labels.
     """
-    n = x.size
     if holdout is not None:
-        frac = holdout_fraction(holdout)
-        n_test = int(math.ceil(frac * n))
-        if n_test < 1 or n - n_test < 2:
-            raise FitError(
-                f"A {frac:.0%} holdout of {n} rows leaves {n - n_test} for training and {n_test} for testing; "
-                "use a different fraction or more data."
-            )
-        parts = []
-        if ordered:
-            order = np.argsort(x, kind="stable")
-            labels = np.zeros(n, dtype=np.int64)
-            labels[order[n - n_test :]] = 1
-            parts.append((labels, [Split(test=(1,), train=(0,))]))
-            scheme = f"ordered holdout: the highest {frac:.0%} of x held out"
-            if repeats > 1:
-                scheme += " (repeats have no effect on an ordered holdout)"
-        else:
-            from sklearn.model_selection import ShuffleSplit
-
-            splitter = ShuffleSplit(n_splits=int(repeats), test_size=n_test, random_state=seed)
-            for _, test_idx in splitter.split(np.empty((n, 1))):
-                labels = np.zeros(n, dtype=np.int64)
-                labels[test_idx] = 1
-                parts.append((labels, [Split(test=(1,), train=(0,))]))
-            scheme = f"{frac:.0%} random holdout (seed {seed}" + (f", {repeats} repeats)" if repeats > 1 else ")")
-        return parts, scheme
-
+        return _holdout_partition(x, holdout, ordered=ordered, repeats=repeats, seed=seed)
     if ordered:
         raise FitError("An ordered split needs a holdout fraction; for folds, leave ordered off.")
     if np.ndim(folds) == 0:
-        try:
-            k = int(folds)
-        except (TypeError, ValueError):
-            raise FitError(f"Folds must be a whole number or one label per row, not {folds!r}.") from None
-        if k < 2:
-            raise FitError(f"Cross-validation needs at least 2 folds, not {k}; 5 or 10 are common.")
-        if k > n:
-            raise FitError(
-                f"Cannot make {k} folds from {n} rows; use at most {n} folds (10 is common, or leave-one-out with {n})."
-            )
-        from sklearn.model_selection import KFold, RepeatedKFold
+        return _kfold_partition(x.size, folds, repeats=repeats, seed=seed)
+    return _label_partition(x.size, folds)
 
-        splitter = (
-            KFold(n_splits=k, shuffle=True, random_state=seed)
-            if repeats <= 1
-            else RepeatedKFold(n_splits=k, n_repeats=int(repeats), random_state=seed)
+
+def _holdout_partition(x, holdout, *, ordered, repeats, seed):
+    n = x.size
+    frac = check_holdout(holdout)
+    n_test = int(math.ceil(frac * n))
+    if n_test < 1 or n - n_test < 2:
+        raise FitError(
+            f"A {frac:.0%} holdout of {n} rows leaves {n - n_test} for training and {n_test} for testing; "
+            "use a different fraction or more data."
         )
-        parts = []
-        labels = np.empty(n, dtype=np.int64)
-        for i, (_, test_idx) in enumerate(splitter.split(np.empty((n, 1)))):
-            f = i % k
-            labels[test_idx] = f
-            if f == k - 1:
-                parts.append(
-                    (labels.copy(), [Split(test=(j,), train=tuple(o for o in range(k) if o != j)) for j in range(k)])
-                )
-        scheme = f"{k}-fold cross-validation (seed {seed}" + (f", {repeats} repeats)" if repeats > 1 else ")")
-        return parts, scheme
+    one = [Split(test=(1,), train=(0,))]
+    if ordered:
+        labels = np.zeros(n, dtype=np.int64)
+        labels[np.argsort(x, kind="stable")[n - n_test :]] = 1
+        scheme = f"ordered holdout: the highest {frac:.0%} of x held out"
+        if repeats > 1:
+            scheme += " (repeats have no effect on an ordered holdout)"
+        return [(labels, one)], scheme
+    parts = [(labels, one) for labels in shuffle_holdout_labels(n, n_test, repeats=repeats, seed=seed)]
+    scheme = f"{frac:.0%} random holdout (seed {seed}" + (f", {repeats} repeats)" if repeats > 1 else ")")
+    return parts, scheme
 
+
+def _kfold_partition(n: int, folds, *, repeats, seed):
+    k = check_folds(folds, n)
+    splits = [Split(test=(j,), train=tuple(o for o in range(k) if o != j)) for j in range(k)]
+    parts = [(labels, splits) for labels in kfold_labels(n, k, repeats=repeats, seed=seed)]
+    scheme = f"{k}-fold cross-validation (seed {seed}" + (f", {repeats} repeats)" if repeats > 1 else ")")
+    return parts, scheme
+
+
+def kfold_labels(n: int, k: int, *, repeats: int = 1, seed: int = 0) -> list[np.ndarray]:
+    """For each repeat, a fold label (0 .. k - 1) per row.
+
+    The same folds as scikit-learn's KFold(n_splits=k, shuffle=True, random_state=seed)
+    for one repeat and RepeatedKFold(n_splits=k, n_repeats=repeats, random_state=seed)
+    for more: one numpy RandomState(seed) shuffles 0 .. n - 1 once per repeat, and fold j
+    takes the next n // k rows of the shuffle (one more for the first n % k folds).
+    scikit-learn is not imported, so the command line starts fast.
+    """
+    rng = np.random.RandomState(seed)
+    sizes = np.full(k, n // k, dtype=np.int64)
+    sizes[: n % k] += 1
+    fold_of_position = np.repeat(np.arange(k, dtype=np.int64), sizes)
+    out = []
+    for _ in range(int(repeats)):
+        order = np.arange(n)
+        rng.shuffle(order)
+        labels = np.empty(n, dtype=np.int64)
+        labels[order] = fold_of_position
+        out.append(labels)
+    return out
+
+
+def shuffle_holdout_labels(n: int, n_test: int, *, repeats: int = 1, seed: int = 0) -> list[np.ndarray]:
+    """For each repeat, 1 for a held-out row and 0 for a training row.
+
+    The same test rows as scikit-learn's ShuffleSplit(n_splits=repeats, test_size=n_test,
+    random_state=seed): one RandomState(seed) draws a permutation per repeat and the
+    first n_test rows of it are held out. scikit-learn is not imported.
+    """
+    rng = np.random.RandomState(seed)
+    out = []
+    for _ in range(int(repeats)):
+        labels = np.zeros(n, dtype=np.int64)
+        labels[rng.permutation(n)[:n_test]] = 1
+        out.append(labels)
+    return out
+
+
+def _label_partition(n: int, folds):
     raw = np.asarray(folds).ravel()
     if raw.size != n:
         raise FitError(f"Expected one fold label per row; got {raw.size} labels for {n} rows.")
@@ -334,8 +358,8 @@ def _partition(x, *, folds, holdout, ordered, repeats, seed):
         raise FitError(
             f"Grouped or predefined folds need at least 2 distinct labels; found {k}. Choose another group column."
         )
-    others = lambda j: tuple(o for o in range(k) if o != j) + ((-1,) if (labels == -1).any() else ())  # noqa: E731
-    splits = [Split(test=(j,), train=others(j)) for j in range(k)]
+    always = (-1,) if (labels == -1).any() else ()
+    splits = [Split(test=(j,), train=tuple(o for o in range(k) if o != j) + always) for j in range(k)]
     return [(labels, splits)], f"{k} predefined or grouped folds"
 
 
@@ -344,16 +368,16 @@ def _partition(x, *, folds, holdout, ordered, repeats, seed):
 
 
 def sweep_degrees(
-    x,
-    y,
+    x: ArrayLike,
+    y: ArrayLike,
     *,
-    degrees=range(0, 13),
-    folds=10,
-    holdout=None,
+    degrees: Iterable[int] = range(0, 13),
+    folds: int | ArrayLike = 10,
+    holdout: float | None = None,
     ordered: bool = False,
     repeats: int = 1,
     seed: int = 0,
-    weights=None,
+    weights: ArrayLike | None = None,
 ) -> DegreeSweep:
     """Train and test RMSE for every degree, by k-fold cross-validation or holdout.
 
@@ -392,73 +416,47 @@ def sweep_degrees(
 
 def _sweep_degrees(x, y, *, degrees, folds, holdout, ordered, repeats, seed, weights) -> DegreeSweep:
     x, y, w = validate_xyw(x, y, weights)
-    try:
-        repeats = int(repeats)
-        seed = int(seed)
-    except (TypeError, ValueError):
-        raise FitError("Repeats and seed must be whole numbers.") from None
-    if repeats < 1:
-        raise FitError(f"Repeats must be at least 1, not {repeats}.")
-    if not 0 <= seed <= MAX_SEED:  # scikit-learn's splitters seed numpy's RandomState, which takes 0 to 2**32 - 1
-        raise FitError(f"The seed must be a whole number from 0 to {MAX_SEED}, not {seed}.")
-    degs, notes = normalise_degrees(degrees)
-
+    repeats = check_repeats(repeats)
+    seed = check_seed(seed)
+    degs, notes = check_degrees(degrees)
     parts, scheme = _partition(x, folds=folds, holdout=holdout, ordered=ordered, repeats=repeats, seed=seed)
-
     # cap the degrees by the distinct x values of the smallest training set
     degs = cap_degrees(degs, _carryable_degree(x, parts), notes)
-
     ncols = degs[-1] + 1
     offset, scale = _basis.domain_map(float(x.min()), float(x.max()))
     t = _basis.to_window(x, offset, scale)
+    y_exp = pow2_exponent(y)  # extreme magnitudes: y / 2**y_exp, exact, undone in every reported number
+    ys = np.ldexp(y, -y_exp) if y_exp else y
     partitions = []
     for labels, splits in parts:
         blocks = {}
         for lab in np.unique(labels):
             idx = np.nonzero(labels == lab)[0]
-            blocks[int(lab)] = block_factor(t[idx], y[idx], ncols, None if w is None else w[idx])
+            blocks[int(lab)] = block_factor(t[idx], ys[idx], ncols, None if w is None else w[idx])
         partitions.append((blocks, splits))
-    display_block = None
-    test_mask = None
-    if holdout is not None and len(parts) >= 1:
+    display_block = test_mask = None
+    display_domain = (float(x.min()), float(x.max()))
+    if holdout is not None:
         blocks0, splits0 = partitions[0]
         display_block = Block.merge(blocks0[b] for b in splits0[0].train)
         test_mask = parts[0][0] == 1
-    result = sweep_from_blocks(
+        display_domain = (float(x[~test_mask].min()), float(x[~test_mask].max()))
+    return sweep_from_blocks(
         partitions,
         degs,
         ncols=ncols,
         offset=offset,
         scale=scale,
         domain=(float(x.min()), float(x.max())),
-        y_range=(float(y.min()), float(y.max())),
+        y_range=(float(ys.min()), float(ys.max())),
         scheme=scheme,
         notes=notes,
-        single_split_rule=holdout is not None and repeats == 1 or (holdout is not None and ordered),
+        single_split_rule=(holdout is not None and repeats == 1) or (holdout is not None and ordered),
         display_block=display_block,
-        display_domain=(
-            (float(x[~test_mask].min()), float(x[~test_mask].max()))
-            if test_mask is not None
-            else (float(x.min()), float(x.max()))
-        ),
+        display_domain=display_domain,
         test_mask=test_mask,
+        y_exp=y_exp,
     )
-    return result
-
-
-def normalise_degrees(degrees) -> tuple[list[int], list[str]]:
-    """Sorted distinct degrees, capped at MAX_DEGREE, and the notes that explain any cap."""
-    try:
-        degs = sorted({int(d) for d in degrees})
-    except (TypeError, ValueError):
-        raise FitError(f"Degrees must be whole numbers, not {degrees!r}.") from None
-    if not degs or degs[0] < 0:
-        raise FitError("Give at least one degree, all of them 0 or more.")
-    notes: list[str] = []
-    if degs[-1] > MAX_DEGREE:
-        notes.append(f"Degrees above {MAX_DEGREE} were left out: double-precision data rarely support them.")
-        degs = [d for d in degs if d <= MAX_DEGREE] or [MAX_DEGREE]
-    return degs, notes
 
 
 def cap_degrees(degs: list[int], cap: int, notes: list[str]) -> list[int]:
@@ -510,42 +508,72 @@ def sweep_from_blocks(
     display_block: Block | None = None,
     display_domain: tuple[float, float] | None = None,
     test_mask: np.ndarray | None = None,
+    y_exp: int = 0,
 ) -> DegreeSweep:
     """Everything after the rows have been reduced to Blocks (shared with the streaming path).
 
     ``partitions`` is a list of (blocks: dict label -> Block, splits: list[Split]).
+    When the blocks hold y / 2**y_exp (``y_range`` in the same units), every reported
+    error is multiplied back by 2**y_exp.
     """
-    notes = list(notes or [])
+    sc = _score_splits(partitions, degs, ncols, y_exp)
+    full = Block.merge(partitions[0][0].values())
+    disp = display_block if display_block is not None else full
+    dlo, dhi = display_domain or domain
+    geo = dict(offset=offset, scale=scale, display_domain=(dlo, dhi), y_range=y_range)
+    diag = _full_data_diagnostics(full, disp, degs, ncols, geo, sc["failed"], sc["n_train_min"], y_exp)
+    rec = _recommend(degs, sc, scheme, single_split_rule)
+    deg_notes = diag["notes"]
+    overfit, over_from = _overfitting(degs, sc, rec, deg_notes)
+    _failed_notes(deg_notes, sc["failed"])
+    aic, bic = diag["aic"], diag["bic"]
+    aic_deg, bic_deg = _criterion_degree(degs, aic, aic, rec), _criterion_degree(degs, aic, bic, rec)
+    return DegreeSweep(
+        degrees=np.asarray(degs, dtype=np.int64),
+        **_score_fields(sc),
+        aic=aic,
+        bic=bic,
+        condition_numbers=diag["conds"],
+        overfit=overfit,
+        recommended_degree=rec["degree"],
+        recommendation_rule=rec["rule"],
+        recommendation=rec["why"][0].upper() + rec["why"][1:] + ".",
+        min_test_degree=rec["dmin"],
+        aic_degree=aic_deg,
+        bic_degree=bic_deg,
+        overfitting_from=over_from,
+        scheme=scheme,
+        n_splits=sc["nspl"],
+        rows_used=full.n,
+        n_train_min=int(sc["n_train_min"] or 0),
+        warnings=tuple(notes or []),
+        degree_warnings={d: tuple(v) for d, v in deg_notes.items() if v},
+        failed_degrees=sc["failed"],
+        test_mask=test_mask,
+        domain=domain,
+        offset=offset,
+        scale=scale,
+        display_coefficients=diag["disp_coef"],
+        display_r=disp.r,
+        display_n=disp.n,
+        display_domain=(dlo, dhi),
+        y_exp=y_exp,
+    )
+
+
+def _score_splits(partitions, degs: list[int], ncols: int, y_exp: int = 0) -> dict[str, Any]:
+    """Train and test RMSE and R² for every (degree, split), as (n_degrees, n_splits) arrays, and their summary."""
     ndeg = len(degs)
     all_splits = [(blocks, s) for blocks, splits in partitions for s in splits]
     nspl = len(all_splits)
-    tr_rmse = np.full((ndeg, nspl), np.nan)
-    te_rmse = np.full((ndeg, nspl), np.nan)
-    tr_r2 = np.full((ndeg, nspl), np.nan)
-    te_r2 = np.full((ndeg, nspl), np.nan)
+    tr_rmse, te_rmse, tr_r2, te_r2 = (np.full((ndeg, nspl), np.nan) for _ in range(4))
     failed: dict[int, str] = {}
     n_train_min = None
-    eps = np.finfo(np.float64).eps
     for j, (blocks, s) in enumerate(all_splits):
         train = Block.merge(blocks[b] for b in s.train if b in blocks)
         test = Block.merge(blocks[b] for b in s.test if b in blocks)
         n_train_min = train.n if n_train_min is None else min(n_train_min, train.n)
-        rt = train.r
-        rinv = _triangular_inverse(rt[:ncols, :ncols])
-        dg = np.abs(np.diag(rt))[:ncols]
-        coefs = np.zeros((ncols + 1, ndeg))
-        coefs[ncols] = 1.0
-        for i, d in enumerate(degs):
-            p = d + 1
-            if dg[:p].min() <= 1e3 * max(train.n, p) * eps * dg[:p].max():
-                failed.setdefault(d, f"the training set of split {j + 1} is rank deficient at degree {d}")
-                continue
-            # the inverse of a leading block of a triangular matrix is the leading block of its inverse
-            coefs[:p, i] = -(rinv[:p, :p] @ rt[:p, ncols])
-            rss = float(np.sum(rt[p:, ncols] ** 2))
-            tr_rmse[i, j] = math.sqrt(max(rss, 0.0) / train.wsum)
-            tss = _tss(train)
-            tr_r2[i, j] = 1.0 - rss / tss if tss > 0 else np.nan
+        coefs = _train_split(train, degs, ncols, j, failed, (tr_rmse, tr_r2))
         res = test.r @ coefs
         trss = np.sum(res * res, axis=0)
         ok = ~np.isnan(tr_rmse[:, j])
@@ -557,58 +585,100 @@ def sweep_from_blocks(
     for d in failed:
         i = degs.index(d)
         tr_rmse[i] = te_rmse[i] = tr_r2[i] = te_r2[i] = np.nan
-
-    train_rmse = np.nanmean(tr_rmse, axis=1) if nspl else np.full(ndeg, np.nan)
+    out = dict(failed=failed, n_train_min=n_train_min, nspl=nspl)
     with np.errstate(invalid="ignore"):
-        test_rmse = np.mean(te_rmse, axis=1)
-        se = np.std(te_rmse, axis=1, ddof=1) / math.sqrt(nspl) if nspl > 1 else np.full(ndeg, np.nan)
-        train_r2 = np.mean(tr_r2, axis=1)
-        test_r2 = np.nanmean(te_r2, axis=1) if np.isfinite(te_r2).any() else np.full(ndeg, np.nan)
+        # means and SEs in the scaled units (squares stay inside double precision), then scaled back exactly
+        scaled = dict(
+            tr_rmse=tr_rmse,
+            te_rmse=te_rmse,
+            train_rmse=np.nanmean(tr_rmse, axis=1) if nspl else np.full(ndeg, np.nan),
+            test_rmse=np.mean(te_rmse, axis=1),
+            se=np.std(te_rmse, axis=1, ddof=1) / math.sqrt(nspl) if nspl > 1 else np.full(ndeg, np.nan),
+        )
+        out["train_r2"] = np.mean(tr_r2, axis=1)
+        out["test_r2"] = np.nanmean(te_r2, axis=1) if np.isfinite(te_r2).any() else np.full(ndeg, np.nan)
+    out.update({k: np.ldexp(v, y_exp) if y_exp else v for k, v in scaled.items()})
+    return out
 
-    # full-data factor: AIC/BIC, conditioning, oscillation and band checks
-    full = Block.merge(partitions[0][0].values())
-    n = full.n
-    aic = np.full(ndeg, np.nan)
-    bic = np.full(ndeg, np.nan)
-    conds = np.full(ndeg, np.nan)
-    deg_notes: dict[int, list[str]] = {d: [] for d in degs}
-    disp = display_block if display_block is not None else full
-    disp_coef: dict[int, np.ndarray] = {}
-    ylo, yhi = y_range
-    yspan = (yhi - ylo) if yhi > ylo else 1.0
-    dlo, dhi = display_domain or domain
-    grid_t = _basis.to_window(np.linspace(dlo, dhi, 801), offset, scale)
-    grid_a = _basis.chebyshev_vander(grid_t, ncols)
-    disp_ok = np.abs(np.diag(disp.r))[:ncols]
-    disp_inv = _triangular_inverse(disp.r[:ncols, :ncols]) if disp_ok.min() > 0 else None
+
+def _failed_notes(deg_notes: dict[int, list[str]], failed: dict[int, str]) -> None:
+    for d, msg in failed.items():
+        deg_notes[d].insert(0, f"degree {d}: could not be validated: {msg}.")
+
+
+def _criterion_degree(degs: list[int], aic: np.ndarray, crit: np.ndarray, rec: dict[str, Any]) -> int:
+    """The degree with the lowest criterion (where AIC is finite), or the recommendation when none is."""
+    finite_aic = np.isfinite(aic)
+    return degs[int(np.nanargmin(np.where(finite_aic, crit, np.inf)))] if finite_aic.any() else rec["degree"]
+
+
+def _score_fields(sc: dict[str, Any]) -> dict[str, np.ndarray]:
+    """The DegreeSweep fields that come straight from the scores."""
+    return dict(
+        train_rmse=sc["train_rmse"],
+        test_rmse=sc["test_rmse"],
+        test_rmse_se=sc["se"],
+        train_rmse_folds=sc["tr_rmse"],
+        test_rmse_folds=sc["te_rmse"],
+        train_r2=sc["train_r2"],
+        test_r2=sc["test_r2"],
+    )
+
+
+def _train_split(train: Block, degs: list[int], ncols: int, j: int, failed: dict[int, str], into) -> np.ndarray:
+    """Coefficients (as columns [-c; 1]) of every degree on one training set; fills train RMSE and R² column j."""
+    tr_rmse, tr_r2 = into
+    eps = np.finfo(np.float64).eps
+    rt = train.r
+    rinv = _triangular_inverse(rt[:ncols, :ncols])
+    dg = np.abs(np.diag(rt))[:ncols]
+    coefs = np.zeros((ncols + 1, len(degs)))
+    coefs[ncols] = 1.0
+    tss = _tss(train)
     for i, d in enumerate(degs):
         p = d + 1
-        rf = full.r[:p, :p]
-        conds[i] = condition_of(rf)
+        if dg[:p].min() <= 1e3 * max(train.n, p) * eps * dg[:p].max():
+            failed.setdefault(d, f"the training set of split {j + 1} is rank deficient at degree {d}")
+            continue
+        # the inverse of a leading block of a triangular matrix is the leading block of its inverse
+        coefs[:p, i] = -(rinv[:p, :p] @ rt[:p, ncols])
+        rss = float(np.sum(rt[p:, ncols] ** 2))
+        tr_rmse[i, j] = math.sqrt(max(rss, 0.0) / train.wsum)
+        tr_r2[i, j] = 1.0 - rss / tss if tss > 0 else np.nan
+    return coefs
+
+
+def _full_data_diagnostics(full, disp, degs, ncols, geometry, failed, n_train_min, y_exp=0) -> dict[str, Any]:
+    """AIC and BIC on the full data, conditioning, and the display fit's oscillation and band checks."""
+    ndeg, n = len(degs), full.n
+    aic, bic, conds = (np.full(ndeg, np.nan) for _ in range(3))
+    deg_notes: dict[int, list[str]] = {d: [] for d in degs}
+    disp_coef: dict[int, np.ndarray] = {}
+    grid = np.linspace(*geometry["display_domain"], 801)
+    grid_t = _basis.to_window(grid, geometry["offset"], geometry["scale"])
+    grid_a = _basis.chebyshev_vander(grid_t, ncols)
+    disp_inv = _triangular_inverse(disp.r[:ncols, :ncols]) if np.abs(np.diag(disp.r))[:ncols].min() > 0 else None
+    for i, d in enumerate(degs):
+        p = d + 1
+        conds[i] = condition_of(full.r[:p, :p])
         rss = float(np.sum(full.r[p:, ncols] ** 2))
         if rss > 0 and n > 0:
-            aic[i] = n * math.log(rss / full.wsum) + 2 * p
-            bic[i] = n * math.log(rss / full.wsum) + p * math.log(n)
+            # log of the RSS in y's units: log(rss / wsum) + 2 y_exp log 2
+            loglik = n * (math.log(rss / full.wsum) + 2 * y_exp * math.log(2.0))
+            aic[i] = loglik + 2 * p
+            bic[i] = loglik + p * math.log(n)
         if d in failed or disp_inv is None:
             continue
         ri = disp_inv[:p, :p]
         c = ri @ disp.r[:p, ncols]
-        disp_coef[d] = c
+        disp_coef[d] = np.ldexp(c, y_exp) if y_exp else c
         if conds[i] > CONDITION_LIMIT:
             deg_notes[d].append(
                 f"degree {d}: the fit is ill-conditioned (condition number {conds[i]:.2g} even after mapping x to "
                 "[-1, 1]); its coefficients are poorly determined."
             )
-        curve = _basis.chebyshev_values(grid_t, c)
-        over = max(float(curve.max()) - yhi, ylo - float(curve.min()), 0.0)
-        if over > OSCILLATION_FACTOR * yspan:
-            where = float(np.linspace(dlo, dhi, 801)[int(np.argmax(np.maximum(curve - yhi, ylo - curve)))])
-            deg_notes[d].append(
-                f"degree {d}: between data points the curve swings {_ratio(over / yspan)} the data's y range beyond it "
-                f"(near x = {where:.4g}), a sign of oscillation."
-            )
-        dof = disp.n - p
-        if dof > 0:
+        _oscillation_note(deg_notes[d], d, _basis.chebyshev_values(grid_t, c), grid, geometry["y_range"])
+        if disp.n - p > 0:
             u = ri.T @ grid_a[:, :p].T
             inflation = float(np.sqrt(np.max(np.sum(u * u, axis=0))))
             if inflation > BAND_INFLATION_LIMIT:
@@ -621,14 +691,30 @@ def sweep_from_blocks(
                 f"degree {d}: the curve has as many coefficients as the smallest training set has rows "
                 f"({n_train_min}), so it interpolates the points; training error means nothing here."
             )
+    return dict(aic=aic, bic=bic, conds=conds, notes=deg_notes, disp_coef=disp_coef)
 
-    # recommendation
+
+def _oscillation_note(notes: list[str], d: int, curve: np.ndarray, grid: np.ndarray, y_range) -> None:
+    ylo, yhi = y_range
+    yspan = (yhi - ylo) if yhi > ylo else 1.0
+    over = max(float(curve.max()) - yhi, ylo - float(curve.min()), 0.0)
+    if over > OSCILLATION_FACTOR * yspan:
+        where = float(grid[int(np.argmax(np.maximum(curve - yhi, ylo - curve)))])
+        notes.append(
+            f"degree {d}: between data points the curve swings {_ratio(over / yspan)} the data's y range beyond it "
+            f"(near x = {where:.4g}), a sign of oscillation."
+        )
+
+
+def _recommend(degs: list[int], sc: dict[str, Any], scheme: str, single_split_rule: bool) -> dict[str, Any]:
+    """The recommended degree, its rule and the sentence that explains it."""
+    test_rmse, se, nspl = sc["test_rmse"], sc["se"], sc["nspl"]
     finite = np.isfinite(test_rmse)
     if not finite.any():
         raise FitError("No degree could be validated; check the data for duplicated x values or use fewer folds.")
     imin = int(np.nanargmin(np.where(finite, test_rmse, np.inf)))
     dmin = degs[imin]
-    has_se = nspl > 1 and np.isfinite(se[imin])
+    has_se = nspl > 1 and bool(np.isfinite(se[imin]))
     if has_se and not single_split_rule:
         limit = test_rmse[imin] + se[imin]
         irec = int(np.nonzero(finite & (test_rmse <= limit))[0][0])
@@ -650,14 +736,21 @@ def sweep_from_blocks(
             f"degree {dmin} has the lowest test RMSE ({test_rmse[imin]:.4g}) on a single {scheme}; "
             "a single split has no standard error, so this choice is noisy. Prefer k-fold cross-validation"
         )
-    rec = degs[irec]
+    return dict(degree=degs[irec], rule=rule, why=why, imin=imin, dmin=dmin, has_se=has_se, finite=finite)
 
-    # overfitting: test error above its minimum by more than its SE while training error keeps falling
-    # Overfitting sets in at the lowest degree above the minimum whose test error
-    # exceeds the minimum by more than its SE while training error keeps falling;
-    # every higher degree is judged overfit from there on.
+
+def _overfitting(degs: list[int], sc: dict[str, Any], rec: dict[str, Any], deg_notes) -> tuple[np.ndarray, int | None]:
+    """Where overfitting sets in, and which degrees are overfit.
+
+    Overfitting sets in at the lowest degree above the minimum whose test error exceeds
+    the minimum by more than its SE while training error keeps falling; every higher
+    degree is judged overfit from there on.
+    """
+    test_rmse, train_rmse = sc["test_rmse"], sc["train_rmse"]
+    imin, dmin, finite = rec["imin"], rec["dmin"], rec["finite"]
+    ndeg = len(degs)
     overfit = np.zeros(ndeg, dtype=bool)
-    margin = se[imin] if has_se else NO_SE_RISE * test_rmse[imin]
+    margin = sc["se"][imin] if rec["has_se"] else NO_SE_RISE * test_rmse[imin]
     rises = np.array(
         [
             i > imin
@@ -668,64 +761,25 @@ def sweep_from_blocks(
         ]
     )
     over_from = degs[int(np.argmax(rises))] if rises.any() else None
-    if over_from is not None:
-        for i in range(degs.index(over_from), ndeg):
-            if not finite[i]:
-                continue
-            overfit[i] = True
-            ratio = _ratio(test_rmse[i] / test_rmse[imin])
-            if rises[i]:
-                msg = (
-                    f"degree {degs[i]}: test error is {ratio} its minimum (degree {dmin}) while training error "
-                    "keeps falling — the curve is chasing noise."
-                )
-            else:
-                msg = (
-                    f"degree {degs[i]}: past degree {over_from}, where overfitting sets in; its test error "
-                    f"({ratio} the minimum at degree {dmin}) is no better, so the extra terms fit noise."
-                )
-            deg_notes[degs[i]].insert(0, msg)
-    for d, msg in failed.items():
-        deg_notes[d].insert(0, f"degree {d}: could not be validated: {msg}.")
-    finite_aic = np.isfinite(aic)
-    aic_deg = degs[int(np.nanargmin(np.where(finite_aic, aic, np.inf)))] if finite_aic.any() else rec
-    bic_deg = degs[int(np.nanargmin(np.where(finite_aic, bic, np.inf)))] if finite_aic.any() else rec
-    return DegreeSweep(
-        degrees=np.asarray(degs, dtype=np.int64),
-        train_rmse=train_rmse,
-        test_rmse=test_rmse,
-        test_rmse_se=se,
-        train_rmse_folds=tr_rmse,
-        test_rmse_folds=te_rmse,
-        train_r2=train_r2,
-        test_r2=test_r2,
-        aic=aic,
-        bic=bic,
-        condition_numbers=conds,
-        overfit=overfit,
-        recommended_degree=rec,
-        recommendation_rule=rule,
-        recommendation=why[0].upper() + why[1:] + ".",
-        min_test_degree=dmin,
-        aic_degree=aic_deg,
-        bic_degree=bic_deg,
-        overfitting_from=over_from,
-        scheme=scheme,
-        n_splits=nspl,
-        rows_used=n,
-        n_train_min=int(n_train_min or 0),
-        warnings=tuple(notes),
-        degree_warnings={d: tuple(v) for d, v in deg_notes.items() if v},
-        failed_degrees=failed,
-        test_mask=test_mask,
-        domain=domain,
-        offset=offset,
-        scale=scale,
-        display_coefficients=disp_coef,
-        display_r=disp.r,
-        display_n=disp.n,
-        display_domain=(dlo, dhi),
-    )
+    if over_from is None:
+        return overfit, None
+    for i in range(degs.index(over_from), ndeg):
+        if not finite[i]:
+            continue
+        overfit[i] = True
+        ratio = _ratio(test_rmse[i] / test_rmse[imin])
+        if rises[i]:
+            msg = (
+                f"degree {degs[i]}: test error is {ratio} its minimum (degree {dmin}) while training error "
+                "keeps falling — the curve is chasing noise."
+            )
+        else:
+            msg = (
+                f"degree {degs[i]}: past degree {over_from}, where overfitting sets in; its test error "
+                f"({ratio} the minimum at degree {dmin}) is no better, so the extra terms fit noise."
+            )
+        deg_notes[degs[i]].insert(0, msg)
+    return overfit, over_from
 
 
 def _ratio(r: float) -> str:

@@ -1,6 +1,7 @@
 #!/usr/bin/env bash
 # Install everything the test suite needs on a fresh Debian machine, then run the
-# whole suite, browser tests included. Extra arguments go to pytest.
+# whole suite: lint (ruff check, ruff format --check), the doctests of the public
+# modules, and every test, browser tests included. Extra arguments go to pytest.
 set -euo pipefail
 cd "$(dirname "$0")/.."
 
@@ -16,5 +17,11 @@ fi
 .venv/bin/python -m pip install -q --disable-pip-version-check --upgrade pip
 .venv/bin/python -m pip install -q --disable-pip-version-check -e '.[test,dask]'
 
-# Browser tests must run, not skip, when CI=true (tests/conftest.py enforces it).
-exec .venv/bin/python -m pytest -q -p no:cacheprovider "$@"
+echo "ruff check and ruff format --check ..."
+.venv/bin/ruff check .
+.venv/bin/ruff format --check .
+
+# Doctests of the public modules (the examples in docstrings and the README's Python section),
+# then the whole suite. Browser tests must run, not skip, when CI=true (tests/conftest.py enforces it).
+exec .venv/bin/python -m pytest -q -p no:cacheprovider --doctest-modules --doctest-glob=README.md \
+    fitting app/_format.py app/handover.py tests README.md "$@"

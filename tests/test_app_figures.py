@@ -104,3 +104,23 @@ def test_residual_chart(sensor):
     x = np.concatenate([view.train_x, view.test_x])
     y = np.concatenate([view.train_y, view.test_y])
     np.testing.assert_allclose(res, y - model.fit.predict(x))
+
+
+def test_a_missing_test_rmse_is_a_gap_on_the_error_chart_not_the_minimum(sensor):
+    # the current-degree marker sits on the degree view's own number; a NaN there is drawn as a gap
+    import dataclasses
+
+    service, info, cols = sensor
+    view, dv = views(service, info, cols, SplitSettings(mode="kfold"), 4)
+    fig = figures.error_figure(view, dv)
+    assert list(fig.data[ids.ERR_TRACE_CURRENT].y) == [dv.test_rmse]
+    rec = view.recommended_degree
+    assert list(fig.data[ids.ERR_TRACE_RECOMMENDED].y) == [view.steady.test_rmse[view.steady.index(rec)]]
+    missing = dataclasses.replace(dv, test_rmse=float("nan"))
+    ops = {
+        tuple(o["location"]): o["params"]["value"]
+        for o in figures.error_degree_patch(view, missing).to_plotly_json()["operations"]
+    }
+    assert ops[("data", ids.ERR_TRACE_CURRENT, "y")] == [None]
+    assert figures.error_figure(view, missing).data[ids.ERR_TRACE_CURRENT].y == (None,)
+    assert "test RMSE —" in figures.fit_figure(view, missing).layout.annotations[0].text

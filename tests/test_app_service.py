@@ -11,7 +11,15 @@ import numpy as np
 import pytest
 import statsmodels.api as sm
 
-from app.service import MAX_POINTS, Columns, FitService, SplitSettings, decode_upload, parse_x_values
+from app.service import (
+    MAX_POINTS,
+    Columns,
+    FitService,
+    SplitSettings,
+    clamp_degree,
+    decode_upload,
+    parse_x_values,
+)
 from app.store import DatasetGone, DatasetStore
 from fitting import FileTooLargeError, FitError
 
@@ -65,10 +73,12 @@ def test_a_degree_change_does_not_recompute_the_sweep(sensor):
     service, info, cols = sensor
     split = SplitSettings()
     service.split_view(info.id, cols, split)
-    misses = service._splits.misses, service._steady.misses
+    computed = service.sweeps_computed
     for d in range(0, 15):
         service.degree_view(info.id, cols, split, d)
-    assert (service._splits.misses, service._steady.misses) == misses
+    assert service.sweeps_computed == computed
+    service.split_view(info.id, cols, SplitSettings(seed=1))
+    assert service.sweeps_computed == computed + 1  # a new split is one new sweep; the verdict sweep is reused
 
 
 def test_the_verdict_rests_on_steady_cv_whatever_the_split(fit_service, sample_dir):
@@ -161,3 +171,21 @@ def test_typed_x_values_are_parsed_or_refused():
     assert parse_x_values("  ").size == 0
     with pytest.raises(FitError, match="is not a number"):
         parse_x_values("1, two")
+    with pytest.raises(FitError, match="is not a finite number"):
+        parse_x_values("1, inf")
+
+
+def test_refused_split_values_are_replaced_by_the_nearest_allowed_ones():
+    s, refused = SplitSettings.coerce("kfold", 25, 100, -5)
+    assert (s.folds, s.seed) == (50, 0)
+    assert [(r.setting, r.typed, r.used) for r in refused] == [("folds", 100, 50), ("seed", -5, 0)]
+    s, refused = SplitSettings.coerce("kfold", float("nan"), float("inf"), "x")
+    assert (s.holdout, s.folds, s.seed) == (0.25, 10, 0) and len(refused) == 3
+    assert SplitSettings.coerce("holdout", 30, 5, 2) == (SplitSettings("holdout", 0.3, 5, 2), ())
+
+
+def test_clamp_degree_refuses_what_is_not_a_number():
+    assert clamp_degree(25, 20) == 20 and clamp_degree(-3, 20) == 0 and clamp_degree("4", 20) == 4
+    for bad in (float("inf"), float("-inf"), float("nan"), None, "four", [1]):
+        with pytest.raises(FitError, match="whole number from 0 to 20"):
+            clamp_degree(bad, 20)

@@ -14,7 +14,6 @@ All data sets are invented.
 
 from __future__ import annotations
 
-import inspect
 import math
 
 import numpy as np
@@ -23,8 +22,7 @@ import statsmodels.api as sm
 from scipy import stats
 from scipy.optimize import brentq
 
-from fitting import FitError, fit_polynomial
-from fitting._calibrate import back_calculate, compare_weightings, read_back
+from fitting import FitError, back_calculate, compare_weightings, fit_polynomial, read_back
 from fitting._weighting import WEIGHTINGS, weights_for
 
 LEVELS = np.array([1.0, 2.0, 5.0, 10.0, 20.0, 50.0, 100.0, 200.0])
@@ -154,13 +152,8 @@ def test_weighted_fit_matches_statsmodels_wls(rule):
 
 
 def _named_fit(x, y, degree, rule):
-    """A fit that records its named rule (through fit_polynomial(weighting=...) where the engine has it)."""
-    w = weights_for(rule, x, y)
-    if "weighting" in inspect.signature(fit_polynomial).parameters:
-        return fit_polynomial(x, y, degree, weights=w, weighting=rule)
-    fit = fit_polynomial(x, y, degree, weights=w)
-    object.__setattr__(fit, "weighting", rule)  # the field the engine is gaining
-    return fit
+    """A fit that records its named rule."""
+    return fit_polynomial(x, y, degree, weighting=rule)
 
 
 @pytest.mark.parametrize("rule,power", [("1/x", 1), ("1/x2", 2)])

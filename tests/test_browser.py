@@ -137,7 +137,8 @@ def test_mouse_drag_moves_the_degree(page):
         page.mouse.move(thumb["x"] + (target - thumb["x"]) * i / 10, thumb["y"] + thumb["height"] / 2)
         page.wait_for_timeout(30)
     page.wait_for_function(
-        "(d0) => !document.querySelector('#fit-chart .js-plotly-plot')._fullLayout.title.text.startsWith('Degree ' + d0 + ' ')",
+        "(d0) => !document.querySelector('#fit-chart .js-plotly-plot')"
+        "._fullLayout.title.text.startsWith('Degree ' + d0 + ' ')",
         arg=d0,
     )
     page.mouse.up()
@@ -261,3 +262,19 @@ def test_shared_url_restores_the_view(browser, server):
         wait_for_title(pg, FIT, "Degree 6 fit")
     finally:
         ctx.close()
+
+
+def test_refused_folds_and_seed_are_named_in_the_split_note(page):
+    # the browser sends out-of-range values on; the note says what was refused and what is in force
+    page.get_by_text("k-fold cross-validation", exact=True).click()
+    wait_for_title(page, ERR, "10-fold cross-validation")
+    page.fill("#folds", "1")
+    page.press("#folds", "Enter")
+    wait_for_title(page, ERR, "2-fold cross-validation")
+    assert "Folds '1' was not used" in page.inner_text("#split-note") and "2 is in force" in page.inner_text(
+        "#split-note"
+    )
+    page.fill("#seed", "-5")
+    page.press("#seed", "Enter")
+    page.wait_for_function("() => document.getElementById('split-note').innerText.includes(\"Seed '-5' was not used\")")
+    assert "0 is in force" in page.inner_text("#split-note")

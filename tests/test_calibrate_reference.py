@@ -24,8 +24,7 @@ import statsmodels.api as sm
 from scipy import stats
 from scipy.optimize import brentq
 
-from fitting import FitError, fit_polynomial
-from fitting._calibrate import monotonic_ranges, read_back
+from fitting import FitError, fit_polynomial, monotonic_ranges, read_back
 
 SCALE = 1e6  # the reference works in load / 1e6 so that statsmodels' design is well conditioned
 

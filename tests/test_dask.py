@@ -19,7 +19,7 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
 
-from fitting._errors import FitError
+from fitting import FitError
 
 HAVE_DASK = importlib.util.find_spec("dask") is not None and importlib.util.find_spec("distributed") is not None
 if not HAVE_DASK:
@@ -30,7 +30,7 @@ if not HAVE_DASK:
 import psutil  # noqa: E402  (installed with distributed)
 
 import fitting._stream as stream  # noqa: E402
-from fitting._stream import sweep_source  # noqa: E402
+from fitting import sweep_source  # noqa: E402
 
 FIELDS = ("train_rmse_folds", "test_rmse_folds", "train_r2", "test_r2", "aic", "bic", "condition_numbers")
 

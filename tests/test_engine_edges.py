@@ -198,8 +198,35 @@ def test_model_file_errors_are_sentences():
         PolynomialFit.from_dict({k: v for k, v in data.items() if k != "residual_sd"})
 
 
+def _subclasses(cls):
+    for sub in cls.__subclasses__():
+        yield sub
+        yield from _subclasses(sub)
+
+
 def test_every_engine_error_is_a_degreescope_error():
-    assert issubclass(FitError, DegreescopeError)
+    import fitting
+
+    public_errors = [
+        v
+        for v in vars(fitting).values()
+        if isinstance(v, type) and issubclass(v, Exception) and not issubclass(v, Warning)
+    ]
+    assert {FitError, fitting.IntakeError, fitting.ColumnError, fitting.FileTooLargeError} <= set(public_errors)
+    for err in public_errors:
+        assert issubclass(err, DegreescopeError), err
+        for sub in _subclasses(err):
+            assert issubclass(sub, DegreescopeError), sub
+    assert set(_subclasses(DegreescopeError)) >= set(public_errors) - {DegreescopeError}
+
+
+def test_file_too_large_error_carries_its_size_and_limit():
+    import fitting
+
+    err = fitting.FileTooLargeError("too big", size=300, limit=200)
+    assert (err.size, err.limit, err.size_bytes, err.limit_bytes, str(err)) == (300, 200, 300, 200, "too big")
+    old_style = fitting.FileTooLargeError("too big")  # the one-argument form callers use today
+    assert old_style.size is None and old_style.limit is None
 
 
 def test_sweep_on_tiny_data_leave_one_out():
@@ -224,18 +251,32 @@ def test_seed_outside_the_generator_range_is_a_sentence(seed):
 @pytest.mark.parametrize(
     "x, y, match",
     [
-        (np.arange(1.0, 12.0), np.arange(1.0, 12.0) ** 2 * 1e300, "larger units"),  # squares overflow
-        (np.arange(1.0, 12.0), np.arange(1.0, 12.0) ** 2 * 1e-300, "smaller units"),  # squares underflow to 0
         (np.array([-1e308, 0.0, 5e307, 1e308]), np.arange(4.0), "range too wide"),  # max - min overflows
     ],
 )
-def test_magnitudes_beyond_double_precision_sums_are_refused(x, y, match):
-    # before: the sweep reported RMSE 0 for every degree (1e-300) or "check for duplicated x" (1e300),
-    # the fit gave coefficients off by 1e285, and an overflowing x range crashed in the SVD
+def test_what_doubles_cannot_hold_is_refused(x, y, match):
+    # before: an overflowing x range crashed in the SVD
     for call in (lambda: fit_polynomial(x, y, 1), lambda: sweep_degrees(x, y, degrees=range(2), folds=2)):
         with pytest.raises(FitError, match=match) as err:
             call()
         assert _is_sentence(str(err.value))
+
+
+@pytest.mark.parametrize("factor", [1e300, 1e-300])
+def test_y_magnitudes_whose_squares_leave_double_precision_are_fitted(factor):
+    # Until y was scaled by a power of two these were refused ("express y in larger units"); before that
+    # the sweep reported RMSE 0 (1e-300) or "check for duplicated x" (1e300). Same data in ordinary units
+    # is the reference (scaling by a power of two is exact; the decimal factor here is not, hence rel=1e-12).
+    x = np.arange(1.0, 12.0)
+    y_plain = x**2 + 0.1 * np.sin(7 * x)
+    fit = fit_polynomial(x, y_plain * factor, 1)
+    ref = fit_polynomial(x, y_plain, 1)
+    np.testing.assert_allclose(fit.coefficients, ref.coefficients * factor, rtol=1e-12)
+    assert fit.rmse == pytest.approx(ref.rmse * factor, rel=1e-12)
+    s = sweep_degrees(x, y_plain * factor, degrees=range(3), folds=2)
+    s_ref = sweep_degrees(x, y_plain, degrees=range(3), folds=2)
+    np.testing.assert_allclose(s.test_rmse, s_ref.test_rmse * factor, rtol=1e-12)
+    assert s.recommended_degree == s_ref.recommended_degree
 
 
 def test_x_far_from_zero_is_still_fitted():

@@ -1,4 +1,4 @@
-"""Property tests of fitting._intake with hypothesis.
+"""Property tests of fitting.intake with hypothesis.
 
 Only errors of the engine's own tree (DegreescopeError) may escape read_table and
 Table.select, whatever the bytes; what is read obeys the row-accounting invariants; the
@@ -16,9 +16,7 @@ import pandas as pd
 from hypothesis import HealthCheck, assume, event, given, settings
 from hypothesis import strategies as st
 
-from fitting import _intake
-from fitting._errors import DegreescopeError, FitError
-from fitting._intake import DEFAULT_MAX_BYTES
+from fitting import DEFAULT_MAX_BYTES, DegreescopeError, FitError, read_table
 
 FUZZ = settings(
     max_examples=200,
@@ -29,7 +27,7 @@ FUZZ = settings(
 
 def _read(data: bytes, fast: bool):
     try:
-        return _intake._read(data, max_bytes=DEFAULT_MAX_BYTES, name="fuzz.csv", fast=fast), None
+        return read_table(data, max_bytes=DEFAULT_MAX_BYTES, name="fuzz.csv", fast_path=fast), None
     except DegreescopeError as exc:  # anything else fails the test
         return None, exc
 

@@ -24,7 +24,7 @@ _spec.loader.exec_module(bench)
 
 
 def test_session_data_are_distinct_and_parse_back():
-    from fitting._intake import read_table
+    from fitting import read_table
 
     for k in (0, 1, 49):
         t = read_table(bench.session_csv(k))

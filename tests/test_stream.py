@@ -1,4 +1,4 @@
-"""Checks of the streaming degree sweep over CSV and Parquet sources (fitting._stream).
+"""Checks of the streaming degree sweep over CSV and Parquet sources (fitting.sweep_source).
 
 Outside references named beside each check:
 * numpy.linalg.lstsq on a Chebyshev design (numpy.polynomial.chebyshev.chebvander)
@@ -25,9 +25,7 @@ import pytest
 from numpy.polynomial import chebyshev as C
 from scipy import stats
 
-from fitting import sweep_degrees
-from fitting._errors import ColumnError, FitError, IntakeError
-from fitting._stream import fold_labels, holdout_mask, sweep_source
+from fitting import ColumnError, FitError, IntakeError, fold_labels, holdout_mask, sweep_degrees, sweep_source
 
 RTOL = 1e-9
 FIELDS = (
@@ -98,13 +96,18 @@ def splitmix64_reference(state: int, count: int) -> list[int]:
 
 
 def test_hash_is_splitmix64():
-    from fitting._stream import _row_hash
+    # The 64-bit hash is read through the public functions: fold_labels with k = 2**63
+    # gives its low 63 bits, and holdout_mask at 0.5 is true exactly when its top bit is 0.
+    def row_hash(idx, seed):
+        low = fold_labels(idx, 2**63, seed).astype(np.uint64)
+        top = (~holdout_mask(idx, 0.5, seed)).astype(np.uint64) << np.uint64(63)
+        return low | top
 
     # first output from state 0 of the reference generator (quoted from memory, see module docstring)
-    assert int(_row_hash(np.array([0]), 0)[0]) == 0xE220A8397B1DCDAF
+    assert int(row_hash(np.array([0]), 0)[0]) == 0xE220A8397B1DCDAF
     for seed in (0, 1, 12345, 2**63 + 5):
         ref = splitmix64_reference(seed, 50)
-        got = _row_hash(np.arange(50), seed)
+        got = row_hash(np.arange(50), seed)
         assert [int(v) for v in got] == ref
 
 

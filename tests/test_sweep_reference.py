@@ -283,3 +283,51 @@ def test_holdout_overfitting_uses_ten_percent_rise():
         if t[i] > 1.1 * t[imin] and s.train_rmse[i] < s.train_rmse[imin]
     ]
     assert s.overfitting_from == (expected[0] if expected else None)
+
+
+@pytest.mark.parametrize(
+    "n, k, repeats, seed", [(10, 10, 1, 0), (23, 5, 1, 7), (97, 10, 3, 12345), (7, 2, 4, 2**32 - 1)]
+)
+def test_fold_labels_are_scikit_learns_without_importing_it(n, k, repeats, seed):
+    # Reference: scikit-learn KFold(shuffle=True, random_state=seed) and RepeatedKFold; the engine's own
+    # labels come from numpy's RandomState (no public name: the engine does not import scikit-learn for them).
+    from fitting._sweep import kfold_labels
+
+    got = kfold_labels(n, k, repeats=repeats, seed=seed)
+    splitter = (
+        KFold(k, shuffle=True, random_state=seed)
+        if repeats == 1
+        else RepeatedKFold(n_splits=k, n_repeats=repeats, random_state=seed)
+    )
+    want = [np.empty(n, dtype=np.int64) for _ in range(repeats)]
+    for i, (_, test) in enumerate(splitter.split(np.empty((n, 1)))):
+        want[i // k][test] = i % k
+    assert len(got) == repeats
+    for g, w in zip(got, want, strict=True):
+        np.testing.assert_array_equal(g, w)
+
+
+@pytest.mark.parametrize("n, n_test, repeats, seed", [(20, 5, 1, 0), (101, 26, 3, 9)])
+def test_holdout_rows_are_scikit_learns_shuffle_split(n, n_test, repeats, seed):
+    # Reference: scikit-learn ShuffleSplit(n_splits=repeats, test_size=n_test, random_state=seed).
+    from fitting._sweep import shuffle_holdout_labels
+
+    got = shuffle_holdout_labels(n, n_test, repeats=repeats, seed=seed)
+    splits = ShuffleSplit(n_splits=repeats, test_size=n_test, random_state=seed).split(np.empty((n, 1)))
+    for g, (_, test) in zip(got, splits, strict=True):
+        np.testing.assert_array_equal(np.flatnonzero(g), np.sort(test))
+
+
+def test_the_in_memory_sweep_does_not_import_scikit_learn():
+    import subprocess
+    import sys
+
+    code = (
+        "import sys, numpy as np, fitting\n"
+        "x = np.linspace(0, 1, 40); fitting.sweep_degrees(x, x**2, degrees=range(4), folds=5, repeats=2)\n"
+        "fitting.sweep_degrees(x, x**2, degrees=range(3), holdout=0.25, repeats=2)\n"
+        "fitting.verdict_sweep(np.repeat(x[:10], 2), np.repeat(x[:10], 2) ** 2, degrees=range(3))\n"
+        "print('sklearn' in sys.modules)\n"
+    )
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == "False"

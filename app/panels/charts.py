@@ -1,0 +1,131 @@
+"""The verdict and both charts: a change of data, columns or split redraws them in full.
+
+The recommendation rests on the verdict sweep (10-fold cross-validation of all rows), whatever
+split the charts show; the degree lands on the recommended one for a new dataset.
+"""
+
+from __future__ import annotations
+
+from dash import Input, Output, State, dcc, html, no_update
+
+from .. import components, figures, ids, text
+from ..service import FitService, clamp_degree
+from ._common import PageConfig, degree_marks, notice_on_error
+from .settings import from_key, split_key
+
+SLOT = "main"
+
+
+def _chart(graph_id: str, png_id: str, svg_id: str, filename: str, height: int) -> html.Div:
+    tools = html.Div(
+        [
+            html.Span("Save for slides:", className="muted"),
+            html.Button("PNG", id=png_id, n_clicks=0, className="btn btn-small", title="1600 × 900 PNG"),
+            html.Button("SVG", id=svg_id, n_clicks=0, className="btn btn-small", title="vector SVG"),
+        ],
+        className="chart-tools",
+    )
+    graph = dcc.Graph(
+        id=graph_id,
+        figure=figures.empty_figure("Loading…"),
+        config=figures.image_options(filename),
+        style={"height": f"{height}px"},
+        className="chart",
+    )
+    return html.Div([graph, tools], className="chart-card")
+
+
+def layout(cfg: PageConfig) -> list:
+    """The verdict panel, then the fit chart and the error-by-degree chart."""
+    verdict = html.Section(
+        [
+            html.Div(
+                [
+                    html.Div(id=ids.RECOMMENDED_DEGREE, className="rec-degree"),
+                    html.P(id=ids.RECOMMENDATION_TEXT, className="rec-text"),
+                    html.P(id=ids.MEASURE_NOTE, className="muted small"),
+                ],
+                className="verdict-main",
+            ),
+            html.Div(id=ids.OVERFIT_ALERT, className="alert alert-off", role="alert", **{"aria-live": "polite"}),
+            html.Div(id=ids.SWEEP_NOTES, className="muted small"),
+        ],
+        className="panel verdict",
+    )
+    charts = html.Div(
+        [
+            _chart(ids.FIT_CHART, ids.FIT_PNG, ids.FIT_SVG, "degreescope-fit", 500),
+            _chart(ids.ERROR_CHART, ids.ERROR_PNG, ids.ERROR_SVG, "degreescope-error-by-degree", 500),
+        ],
+        className="charts",
+    )
+    return [verdict, charts]
+
+
+OUTPUT = dict(
+    fit_figure=Output(ids.FIT_CHART, "figure"),
+    error_figure=Output(ids.ERROR_CHART, "figure"),
+    degree_max=Output(ids.DEGREE, "max"),
+    degree_marks=Output(ids.DEGREE, "marks"),
+    degree=Output(ids.DEGREE, "value", allow_duplicate=True),
+    recommended_degree=Output(ids.RECOMMENDED_DEGREE, "children"),
+    recommendation_text=Output(ids.RECOMMENDATION_TEXT, "children"),
+    measure_note=Output(ids.MEASURE_NOTE, "children"),
+    sweep_notes=Output(ids.SWEEP_NOTES, "children"),
+    alert=Output(ids.OVERFIT_ALERT, "children"),
+    alert_class=Output(ids.OVERFIT_ALERT, "className"),
+    readout=Output(ids.DEGREE_READOUT, "children"),
+    split_key=Output(ids.SPLIT_KEY, "data"),
+    notice=Output(ids.FIT_NOTICE, "children"),
+)
+INPUTS = dict(
+    dataset=Input(ids.DATASET, "data"),
+    x=Input(ids.X_COLUMN, "value"),
+    y=Input(ids.Y_COLUMN, "value"),
+    weights=Input(ids.WEIGHTS_COLUMN, "value"),
+    group=Input(ids.GROUP_COLUMN, "value"),
+    mode=Input(ids.SPLIT_MODE, "value"),
+    holdout=Input(ids.HOLDOUT, "value"),
+    folds=Input(ids.FOLDS, "value"),
+    seed=Input(ids.SEED, "value"),
+)
+STATE = dict(degree=State(ids.DEGREE, "value"), bands=State(ids.BANDS, "value"))
+
+
+def on_split(
+    service: FitService, dataset, x, y, weights, group, mode, holdout, folds, seed, degree=None, bands=None
+) -> dict:
+    """Both charts, the verdict, the slider's range and the settings record for a new data/column/split choice."""
+    key = split_key(dataset, x, y, weights, group, mode, holdout, folds, seed)
+    ds, cols, split = from_key(key)
+    view = service.split_view(ds, cols, split)
+    d = view.recommended_degree if degree is None else clamp_degree(degree, view.max_degree)
+    dv = service.degree_view(ds, cols, split, d)
+    alert_children, alert_class = components.alert(dv.warnings)
+    return dict(
+        fit_figure=figures.fit_figure(view, dv, bands),
+        error_figure=figures.error_figure(view, dv),
+        degree_max=view.max_degree,
+        degree_marks=degree_marks(view.max_degree),
+        degree=d if d != degree else no_update,
+        recommended_degree=text.recommended(view),
+        recommendation_text=view.steady.recommendation,
+        measure_note=text.measure_note(view),
+        sweep_notes=[html.P(n) for n in text.sweep_notes(view)],
+        alert=alert_children,
+        alert_class=alert_class,
+        readout=text.degree_readout(dv),
+        split_key=key,
+        notice="",
+    )
+
+
+def register(app, service: FitService) -> None:
+    """Wire the full redraw."""
+    app.callback(
+        output=OUTPUT,
+        inputs=INPUTS,
+        state=STATE,
+        prevent_initial_call="initial_duplicate",
+        on_error=notice_on_error(OUTPUT, "notice"),
+    )(lambda **kw: on_split(service, **kw))

@@ -1,0 +1,136 @@
+"""Take it to the meeting: the HTML report, the model JSON, the predictions CSV and the chart images.
+
+Downloads use the degree, columns and split on screen. Chart images are made in the browser
+(``assets/degreescope.js``), with no server help.
+"""
+
+from __future__ import annotations
+
+from dash import Input, Output, State, ctx, dcc, html, no_update
+
+from fitting import DegreescopeError
+
+from .. import exports, figures, ids
+from ..service import FitService
+from ._common import PageConfig, notice_on_error, panel
+from .predict import typed_x
+from .settings import from_key
+
+SLOT = "tools"
+IMAGE_JS = """
+function(fitPng, fitSvg, errPng, errSvg) {
+    const t = (window.dash_clientside && window.dash_clientside.callback_context.triggered) || [];
+    if (!t.length || !t[0].value) { return window.dash_clientside.no_update; }
+    const which = t[0].prop_id.split('.')[0];
+    return window.degreescope.saveChart(which);
+}
+"""
+BUTTONS = {ids.REPORT_BUTTON: "report", ids.MODEL_BUTTON: "model", ids.CSV_BUTTON: "csv"}
+
+
+def layout(cfg: PageConfig) -> html.Section:
+    """The three download buttons, their note and the notice."""
+    buttons = html.Div(
+        [
+            html.Button("HTML report", id=ids.REPORT_BUTTON, n_clicks=0, className="btn"),
+            html.Button("Model JSON", id=ids.MODEL_BUTTON, n_clicks=0, className="btn"),
+            html.Button("Predictions CSV", id=ids.CSV_BUTTON, n_clicks=0, className="btn"),
+        ],
+        className="button-row",
+    )
+    return panel(
+        "Take it to the meeting",
+        html.P("Downloads use the degree, columns and split on screen.", className="muted small"),
+        buttons,
+        html.P(
+            "The CSV holds the x values typed on the left, or every data row when none are typed. "
+            "Chart images: the PNG and SVG buttons under each chart.",
+            className="muted small",
+        ),
+        html.Div(id=ids.EXPORT_NOTICE, className="notice", role="status"),
+        dcc.Download(id=ids.DOWNLOAD),
+    )
+
+
+def slug(name: str) -> str:
+    """A file-name piece from a column name: lower case, letters and digits, dashes, at most 40 characters."""
+    out = "".join(c if c.isalnum() else "-" for c in str(name).lower())
+    while "--" in out:
+        out = out.replace("--", "-")
+    return out.strip("-")[:40] or "fit"
+
+
+OUTPUT = dict(download=Output(ids.DOWNLOAD, "data"), notice=Output(ids.EXPORT_NOTICE, "children"))
+INPUTS = dict(
+    n_report=Input(ids.REPORT_BUTTON, "n_clicks"),
+    n_model=Input(ids.MODEL_BUTTON, "n_clicks"),
+    n_csv=Input(ids.CSV_BUTTON, "n_clicks"),
+)
+STATE = dict(
+    key=State(ids.SPLIT_KEY, "data"),
+    degree=State(ids.DEGREE_SETTLED, "data"),
+    bands=State(ids.BANDS, "value"),
+    text=State(ids.PREDICT_INPUT, "value"),
+)
+
+
+def _predictions_csv(service: FitService, key: dict, degree, text) -> str:
+    ds, cols, split = from_key(key)
+    xs = typed_x(text, key)
+    if xs.size:
+        return exports.predictions_csv(service.predict(ds, cols, split, degree, xs), x_name=cols.x, y_name=cols.y)
+    sel, p = service.row_predictions(ds, cols, split, degree)
+    return exports.predictions_csv(p, x_name=cols.x, y_name=cols.y, y_observed=sel.y)
+
+
+def _report(service: FitService, key: dict, degree, bands) -> str:
+    ds, cols, split = from_key(key)
+    view = service.split_view(ds, cols, split)
+    dv = service.degree_view(ds, cols, split, degree)
+    model = service.model_view(ds, cols, split, degree)
+    fit_fig, err_fig = figures.fit_figure(view, dv, bands), figures.error_figure(view, dv)
+    return exports.html_report(service.info(ds), view, dv, model, fit_fig, err_fig)
+
+
+def on_export(service: FitService, which: str, key, degree, bands, text) -> dict:
+    """The file for one download button: "model", "csv" or "report"."""
+    if not key or degree is None:
+        raise DegreescopeError("Nothing to export yet; wait for the charts.")
+    ds, cols, split = from_key(key)
+    model = service.model_view(ds, cols, split, degree)
+    stem = f"degreescope-{slug(cols.y)}-degree{model.fit.degree}"
+    if which == "model":
+        data = {"content": exports.model_json(model.fit), "filename": f"{stem}.model.json", "type": "application/json"}
+    elif which == "csv":
+        content = _predictions_csv(service, key, degree, text)
+        data = {"content": content, "filename": f"{stem}.predictions.csv", "type": "text/csv"}
+    else:
+        data = {"content": _report(service, key, degree, bands), "filename": f"{stem}.report.html", "type": "text/html"}
+    return dict(download=data, notice="")
+
+
+def register(app, service: FitService) -> None:
+    """Wire the download buttons and the clientside chart images."""
+
+    def export_cb(n_report, n_model, n_csv, key, degree, bands, text):
+        which = BUTTONS.get(ctx.triggered_id)
+        if which is None:
+            return dict(download=no_update, notice=no_update)
+        return on_export(service, which, key, degree, bands, text)
+
+    app.callback(
+        output=OUTPUT,
+        inputs=INPUTS,
+        state=STATE,
+        prevent_initial_call=True,
+        on_error=notice_on_error(OUTPUT, "notice"),
+    )(export_cb)
+    app.clientside_callback(
+        IMAGE_JS,
+        Output(ids.IMAGE_DONE, "data"),
+        Input(ids.FIT_PNG, "n_clicks"),
+        Input(ids.FIT_SVG, "n_clicks"),
+        Input(ids.ERROR_PNG, "n_clicks"),
+        Input(ids.ERROR_SVG, "n_clicks"),
+        prevent_initial_call=True,
+    )

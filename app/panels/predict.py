@@ -1,0 +1,56 @@
+"""Try x values: predictions with 95 % confidence and prediction intervals at typed x values.
+
+Typed values follow the file's decimal mark (carried in the settings record): with a decimal
+comma, "250,5" is one value and semicolons or new lines separate values.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from dash import Input, Output, dcc, html
+
+from .. import components, ids
+from ..service import FitService, parse_x_values
+from ._common import PageConfig, notice_on_error, panel
+from .settings import from_key
+
+SLOT = "tools"
+
+
+def layout(cfg: PageConfig) -> html.Section:
+    """The text box and the table under it."""
+    return panel(
+        "Try x values",
+        html.Label("x values (commas, spaces or new lines)", htmlFor=ids.PREDICT_INPUT),
+        dcc.Textarea(id=ids.PREDICT_INPUT, placeholder="e.g. 450, 900, 1500", className="predict-input"),
+        html.Div(id=ids.PREDICT_TABLE, className="predict-table"),
+    )
+
+
+OUTPUT = dict(table=Output(ids.PREDICT_TABLE, "children"))
+INPUTS = dict(
+    text=Input(ids.PREDICT_INPUT, "value"),
+    key=Input(ids.SPLIT_KEY, "data"),
+    degree=Input(ids.DEGREE_SETTLED, "data"),
+)
+
+
+def typed_x(text, key) -> np.ndarray:
+    """The typed x values, read with the decimal mark of the file on screen."""
+    return parse_x_values(text, decimal=(key or {}).get("decimal", "."))
+
+
+def on_predict(service: FitService, text, key, degree) -> dict:
+    """The prediction table for the typed x values (the first rows of it when there are many)."""
+    xs = typed_x(text, key)
+    if xs.size == 0 or not key or degree is None:
+        return dict(table=html.P("Predictions appear here.", className="muted small"))
+    ds, cols, split = from_key(key)
+    return dict(table=components.prediction_table(service.predict(ds, cols, split, degree, xs)))
+
+
+def register(app, service: FitService) -> None:
+    """Wire the prediction table."""
+    app.callback(output=OUTPUT, inputs=INPUTS, on_error=notice_on_error(OUTPUT, "table", components.error_paragraph))(
+        lambda text, key, degree: on_predict(service, text, key, degree)
+    )
