@@ -311,3 +311,173 @@ def test_a_version_1_model_file_still_reads_back(capsys, pontius_model, tmp_path
     assert then["rows"][0]["x"] == now["rows"][0]["x"]
     assert then["rows"][0]["x_lower"] == now["rows"][0]["x_lower"]
     assert then["weighting"] == "none"
+
+
+# -- fit: named weighting, back-calculated standards, weighting comparison ---------------
+
+LEVELS = np.array([1.0, 2.0, 5.0, 10.0, 20.0, 50.0, 100.0])
+
+
+@pytest.fixture(scope="module")
+def assay(tmp_path_factory):
+    """Invented assay standards: 7 levels in triplicate, a slight bend, spread growing with x (5 %)."""
+    rng = np.random.default_rng(20261202)
+    x = np.repeat(LEVELS, 3)
+    y = (0.5 + 2.0 * x + 0.002 * x**2) * (1.0 + 0.05 * rng.standard_normal(x.size))
+    folder = tmp_path_factory.mktemp("assay")
+    path = folder / "assay.csv"
+    path.write_text(
+        "# invented assay standards\nconc,area\n"
+        + "".join(f"{float(a)!r},{float(b)!r}\n" for a, b in zip(x, y, strict=True))
+    )
+    return path, x, y
+
+
+def _wls(x, y, degree, w=None):
+    design = np.vander(x, degree + 1, increasing=True)
+    return sm.OLS(y, design).fit() if w is None else sm.WLS(y, design, weights=w).fit()
+
+
+def _x_back(res, y0, lo, hi):
+    """brentq on the statsmodels curve over the range widened by 20 % (the engine's margin); None without a root.
+
+    The curves here rise over that span, so a sign change is the one root."""
+    b = np.asarray(res.params)
+    f = lambda u: float(u ** np.arange(b.size) @ b) - y0  # noqa: E731
+    a, c = lo - 0.2 * abs(lo), hi + 0.2 * abs(hi)
+    return brentq(f, a, c, xtol=1e-14) if f(a) * f(c) < 0 else None
+
+
+def test_fit_with_a_named_weighting_matches_statsmodels_wls(capsys, assay, tmp_path):
+    """--weighting 1/x2: coefficients and SEs equal statsmodels WLS with w = 1/x²; the model records the rule."""
+    path, x, y = assay
+    model = tmp_path / "w.json"
+    got, _ = cli_json(capsys, "fit", path, "--degree", 2, "--weighting", "1/x^2", "--save-model", model)
+    res = _wls(x, y, 2, 1.0 / x**2)
+    np.testing.assert_allclose(got["coefficients"], res.params, rtol=1e-9)  # statsmodels WLS
+    np.testing.assert_allclose(got["standard_errors"], res.bse, rtol=1e-7)
+    assert got["weighting"] == "1/x2"
+    doc = json.loads(model.read_text())
+    assert doc["weighting"] == "1/x2" and doc["fitted_from"]["weighting"] == "1/x2" and doc["version"] >= 2
+    # read-back uses s²/w(x0) at the new x (e-Handbook 4.5.2.1 with the weight of the rule; statsmodels WLS)
+    ref = Reference(res, 1.0, weight=lambda u: 1.0 / u**2)
+    rb, _ = cli_json(capsys, "predict", model, "--from-y", 45.0)
+    x0, xl, xu, u = ref.read(45.0, 1, x.min(), x.max())
+    row = rb["rows"][0]
+    assert rb["weighting"] == "1/x2"
+    assert row["x"] == pytest.approx(x0, rel=1e-9) and row["u_x"] == pytest.approx(u, rel=1e-6)
+    assert row["x_lower"] == pytest.approx(xl, rel=1e-5) and row["x_upper"] == pytest.approx(xu, rel=1e-5)
+
+
+def test_weighting_undefined_rows_are_refused_by_line(capsys, tmp_path):
+    """1/x with a blank standard at x = 0 (file line 4): exit 2 naming line 4; 1/y with y ≤ 0 likewise."""
+    path = tmp_path / "blank.csv"
+    path.write_text("conc,area\n1,2.1\n2,4.2\n0,0.1\n5,10.3\n10,19.8\n")
+    err = one_error(*cli(capsys, "fit", path, "--degree", 1, "--weighting", "1/x"))
+    assert "line 4" in err and "x = 0" in err
+    path.write_text("conc,area\n1,2.1\n2,-0.5\n5,10.3\n10,19.8\n")
+    err = one_error(*cli(capsys, "fit", path, "--degree", 1, "--weighting", "1/y"))
+    assert "line 3" in err
+
+
+def test_weighting_and_weights_column_are_exclusive(capsys, tmp_path):
+    path = tmp_path / "w.csv"
+    path.write_text("x,y,w\n1,2,1\n2,4.1,1\n3,6.2,1\n4,7.9,1\n")
+    err = one_error(*cli(capsys, "fit", path, "--degree", 1, "--weighting", "1/x", "--weights", "w"))
+    assert "--weighting" in err and "--weights" in err
+    err = one_error(*cli(capsys, "fit", path, "--degree", 1, "--weighting", "1/z"))
+    assert "1/x2" in err
+
+
+def test_back_calculation_matches_brentq_and_the_fda_ich_rule(capsys, assay):
+    """x_back from brentq on statsmodels' curve; pass flags recomputed by the FDA 2018 / ICH M10 rule by hand."""
+    path, x, y = assay
+    got, _ = cli_json(capsys, "fit", path, "--degree", 2)
+    back = got["back_calculation"]
+    res = _wls(x, y, 2)
+    assert [r["line"] for r in back["rows"]] == list(range(3, 3 + x.size))  # file lines (comment and header first)
+    passing = 0
+    for r, xi, yi in zip(back["rows"], x, y, strict=True):
+        xb = _x_back(res, yi, x.min(), x.max())
+        if xb is None:  # no root near the range: not read back, and failing
+            assert r["x_back"] is None and r["within_tolerance"] is False and r["note"]
+            continue
+        re = (xb - xi) / xi * 100.0
+        assert r["x_back"] == pytest.approx(xb, rel=1e-9) and r["relative_error_percent"] == pytest.approx(re, abs=1e-7)
+        ok = bool(abs(re) <= (20.0 if xi == x.min() else 15.0))  # ±15 %, ±20 % at the lowest level
+        assert r["within_tolerance"] is ok
+        passing += ok
+    s = back["summary"]
+    assert s["standards"] == x.size and s["standards_passing"] == passing
+    assert s["share_passing_percent"] == pytest.approx(100.0 * passing / x.size)
+    assert s["accepted"] is (passing / x.size >= 0.75 and s["levels_passing"] >= 6)
+    assert back["tolerance"] == 15.0 and back["lowest_tolerance"] == 20.0 and "ICH M10" in back["rule"]
+
+
+def test_tolerances_are_options(capsys, assay):
+    """--tolerance 1 --lowest-tolerance 2: the flags follow the new limits (recomputed from the JSON's own errors)."""
+    path, x, _ = assay
+    got, _ = cli_json(capsys, "fit", path, "--degree", 2, "--tolerance", 1, "--lowest-tolerance", 2)
+    for r in got["back_calculation"]["rows"]:
+        limit = 2.0 if r["x"] == x.min() else 1.0
+        error = r["relative_error_percent"]
+        assert r["within_tolerance"] is (error is not None and abs(error) <= limit)
+    assert "±1 %" in got["back_calculation"]["rule"]
+    err = one_error(*cli(capsys, "fit", path, "--degree", 2, "--tolerance", -5))
+    assert "--tolerance" in err
+
+
+def test_weighting_comparison_matches_statsmodels(capsys, assay):
+    """Σ|relative error %| per rule from statsmodels WLS + brentq; the smallest wins (Almeida et al. 2002)."""
+    path, x, y = assay
+    got, _ = cli_json(capsys, "fit", path, "--degree", 2)
+    comp = got["weighting_comparison"]
+    weights = {"none": None, "1/x": 1 / x, "1/x2": 1 / x**2, "1/y": 1 / y, "1/y2": 1 / y**2}
+    sums = {}
+    for rule, w in weights.items():
+        res = _wls(x, y, 2, w)
+        backs = [_x_back(res, yi, x.min(), x.max()) for yi in y]
+        if all(b is not None for b in backs):  # a rule under which a standard does not read back is not ranked
+            sums[rule] = sum(abs((b - xi) / xi * 100) for b, xi in zip(backs, x, strict=True))
+    by_rule = {r["weighting"]: r for r in comp["rows"]}
+    for rule in weights:
+        if rule in sums:
+            assert by_rule[rule]["sum_abs_relative_error_percent"] == pytest.approx(sums[rule], rel=1e-7)
+        else:
+            assert by_rule[rule]["sum_abs_relative_error_percent"] is None and by_rule[rule]["rank"] is None
+    assert len(sums) >= 2  # the weighted rules read every standard back on these data
+    assert comp["best"] == min(sums, key=sums.get)
+    assert by_rule[comp["best"]]["rank"] == 1
+
+
+def test_fit_text_prints_back_calculation_and_comparison(capsys, assay):
+    path, x, _ = assay
+    code, out, err = cli(capsys, "fit", path, "--degree", 2, "--weighting", "1/x")
+    assert code == 0, err
+    assert "Fit of degree 2, weighting 1/x" in out
+    assert "Back-calculated standards (tolerance ±15 %, ±20 % at the lowest level)" in out
+    assert "by the FDA 2018 / ICH M10 rule" in out and f"of {x.size} standards pass" in out
+    assert "Weighting comparison" in out and "Smallest sum:" in out
+
+
+def test_model_provenance_carries_the_back_calculation_summary(capsys, assay, tmp_path):
+    path, _, _ = assay
+    model = tmp_path / "m.json"
+    got, _ = cli_json(capsys, "fit", path, "--degree", 2, "--save-model", model)
+    block = json.loads(model.read_text())["fitted_from"]
+    assert block["back_calculation"]["summary"] == got["back_calculation"]["summary"]
+    assert block["back_calculation"]["tolerance"] == 15.0 and "ICH M10" in block["back_calculation"]["rule"]
+    assert block["weighting"] == "none"
+
+
+def test_back_calculation_left_out_with_a_reason(capsys, assay, monkeypatch):
+    """Degree 0 cannot be read back; more rows than the limit are not read back one by one: null and why."""
+    from app.cli import _standards
+
+    path, _, _ = assay
+    got, _ = cli_json(capsys, "fit", path, "--degree", 0)
+    assert got["back_calculation"] is None and "degree-0" in got["back_calculation_reason"]
+    assert got["weighting_comparison"] is None
+    monkeypatch.setattr(_standards, "STANDARDS_ROW_LIMIT", 5)
+    got, _ = cli_json(capsys, "fit", path, "--degree", 2)
+    assert got["back_calculation"] is None and "more than the 5" in got["back_calculation_reason"]

@@ -25,19 +25,6 @@ INFLUENCE_ROW_LIMIT = 10_000
 DEFAULT_STABILITY_DRAWS = 200
 
 
-def engine():
-    """The module with the evidence functions (the public ``fitting`` names when listed), or None."""
-    import fitting
-
-    if hasattr(fitting, "degree_evidence") and hasattr(fitting, "verdict_stability"):
-        return fitting
-    try:
-        from fitting import _evidence
-    except ImportError:
-        return None
-    return _evidence
-
-
 def _p(v) -> str:
     return fmt_number(v, 3)
 
@@ -94,9 +81,8 @@ def _influence(ev_mod, fit, rows, weights) -> dict[str, Any]:
 
 def for_fit(fit, rows, weights=None) -> dict[str, Any]:
     """``lack_of_fit`` (or null with ``lack_of_fit_reason``), ``mandel`` at degree 1 or 2, and ``influence``."""
-    ev_mod = engine()
-    if ev_mod is None:
-        return {}
+    import fitting as ev_mod
+
     out = _lack_of_fit(ev_mod, fit, rows, weights)
     out.update(_mandel(ev_mod, fit, rows, weights))
     out.update(_influence(ev_mod, fit, rows, weights))
@@ -149,9 +135,8 @@ def _by_degree(ev, name: str, degrees: list[int]) -> list[float | None]:
 def for_sweep(x, y, degrees, recommended, *, weights=None, groups=None, draws=DEFAULT_STABILITY_DRAWS, seed=0,
               folds=10, repeats="auto") -> dict[str, Any]:  # fmt: skip
     """Per-degree lack of fit and added-term p-values, verdict stability and the evidence sentence."""
-    ev_mod = engine()
-    if ev_mod is None:
-        return {}
+    import fitting as ev_mod
+
     degrees = [int(d) for d in degrees]
     ev = ev_mod.degree_evidence(x, y, degrees, weights=weights)
     out: dict[str, Any] = {

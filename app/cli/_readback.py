@@ -21,17 +21,6 @@ from . import _args, _output
 MAX_READINGS = 10_000
 
 
-def calibration_engine():
-    """The engine's calibration functions: the public ``fitting`` names, or the module that holds them."""
-    import fitting
-
-    if hasattr(fitting, "read_back") and hasattr(fitting, "back_calculate"):
-        return fitting
-    from fitting import _calibrate
-
-    return _calibrate
-
-
 def check_mode(args) -> bool:
     """True for read-back (``--from-y``, or ``--input`` with ``--y``); refuse options that do not fit the mode."""
     from_y = args.from_y is not None
@@ -127,9 +116,10 @@ def run(args, model, inputs: list) -> int:
     """Read the readings back, write the CSV when asked, and print or emit the rows."""
     import numpy as np
 
+    import fitting
+
     from .. import handover
 
-    engine = calibration_engine()
     lines, label = None, model.y_name or "y"
     if args.from_y:
         ys = np.asarray(args.from_y, dtype=np.float64)
@@ -137,7 +127,7 @@ def run(args, model, inputs: list) -> int:
         source = _args.Source(args.input, "input file")
         ys, lines, label = readings_from_table(args, model, source)
         inputs = inputs + ([] if source.is_stdin else [source.path])
-    result = engine.read_back(model, ys, readings=args.readings, level=args.level)
+    result = fitting.read_back(model, ys, readings=args.readings, level=args.level)
     rows = row_dicts(result, lines)
     warnings_all = all_warnings(model, result, rows)
     written = None

@@ -18,7 +18,6 @@ Both read each standard back with a root search, so they are made for calibratio
 
 from __future__ import annotations
 
-import inspect
 import math
 from typing import Any
 
@@ -83,54 +82,35 @@ def check_options(args) -> None:
         )
 
 
-def weights_of(rule, x, y, lines):
-    """The weights of a named rule (None for none); a row where the rule is undefined is refused by its line."""
-    import fitting
-
-    weights_for = getattr(fitting, "weights_for", None)
-    if weights_for is None:  # an engine that does not list it among its public names yet
-        from fitting._weighting import weights_for
-    return weights_for(rule, x, y, rows=lines)
-
-
-def engine_records_weighting() -> bool:
-    import fitting
-
-    return "weighting" in inspect.signature(fitting.fit_polynomial).parameters
-
-
 def fit_weights(args, rows):
     """The weights the fit uses: the rule's (refused by line where undefined), the column's, or None."""
+    import fitting
+
     if args.weighting is None:
         return rows.weights
-    return weights_of(args.weighting, rows.x, rows.y, rows.lines)
+    return fitting.weights_for(args.weighting, rows.x, rows.y, rows=rows.lines)
 
 
-def fit(args, sel, rows, weights):
-    """The fit of ``--degree`` on ``rows``: by ``--weighting`` (recorded in the model), else by ``weights``."""
+def fit(args, sel, rows):
+    """The fit of ``--degree`` on ``rows``: by the ``--weighting`` rule (recorded in the model), else the column."""
     import fitting
 
     kwargs: dict[str, Any] = dict(
         through_origin=args.through_origin, x_name=sel.x_name, y_name=sel.y_name, x_unit=sel.x_unit, y_unit=sel.y_unit
     )
-    if args.weighting is not None and engine_records_weighting():
+    if args.weighting is not None:
         return fitting.fit_polynomial(rows.x, rows.y, args.degree, weighting=args.weighting, **kwargs)
-    return fitting.fit_polynomial(rows.x, rows.y, args.degree, weights=weights, **kwargs)
+    return fitting.fit_polynomial(rows.x, rows.y, args.degree, weights=rows.weights, **kwargs)
 
 
-def rule_of(fit, args) -> str:
-    """The weighting the model was fitted with: the fit's own record, else the option given."""
-    own = getattr(fit, "weighting", None)
-    if own:
-        return str(own)
-    if args.weights is not None:
-        return "column"
-    return args.weighting or "none"
+def rule_of(fit) -> str:
+    """The weighting the model was fitted with: "none", a named rule, or "column"."""
+    return str(fit.weighting)
 
 
 def evaluate(args, fit, x, y, lines) -> dict[str, Any]:
     """``back_calculation`` and ``weighting_comparison`` (engine dicts), or None with the reason for each."""
-    from ._readback import calibration_engine
+    import fitting
 
     out: dict[str, Any] = {"back_calculation": None, "weighting_comparison": None}
     reason = None
@@ -143,12 +123,11 @@ def evaluate(args, fit, x, y, lines) -> dict[str, Any]:
     if reason:
         out["back_calculation_reason"] = out["weighting_comparison_reason"] = reason
         return out
-    engine = calibration_engine()
-    back = engine.back_calculate(
+    back = fitting.back_calculate(
         fit, x, y, tolerance=args.tolerance, lowest_tolerance=args.lowest_tolerance, lines=lines
     )
     out["back_calculation"] = dict(back.to_dict(), tolerance=args.tolerance, lowest_tolerance=args.lowest_tolerance)
-    out["weighting_comparison"] = engine.compare_weightings(
+    out["weighting_comparison"] = fitting.compare_weightings(
         x, y, fit.degree, through_origin=fit.through_origin
     ).to_dict()
     return out
@@ -234,13 +213,3 @@ def text_lines(evaluated: dict) -> list[str]:
     if evaluated.get("weighting_comparison"):
         out += ["", *comparison_lines(evaluated["weighting_comparison"])]
     return out
-
-
-def weighting_notes(args, fit) -> list[str]:
-    """A sentence when the model cannot carry the named weighting (an engine without ``weighting=``)."""
-    if args.weighting in (None, "none") or getattr(fit, "weighting", None):
-        return []
-    return [
-        f"The weights came from the rule {args.weighting}, recorded in the model's provenance; this engine's model "
-        "file does not carry the rule itself, so its intervals at a new x assume a weight of 1 there."
-    ]

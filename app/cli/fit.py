@@ -35,7 +35,7 @@ def _provenance(source, sel, rows, fit, args, evaluated) -> dict:
         rows_used=rows.rows_used,
         rows_dropped=sel.rows_dropped,
         dropped=sel.dropped,
-        weighting=_standards.rule_of(fit, args),
+        weighting=_standards.rule_of(fit),
         excluded=rows.excluded,
         back_calculation=_standards.summary_for_provenance(evaluated),
     )
@@ -53,13 +53,13 @@ def run(args) -> int:
     _data.check_selection(sel)
     rows = _data.apply_exclusions(args, table, sel, source.name)
     weights = _standards.fit_weights(args, rows)  # before the fit: undefined rows are refused by line
-    fit = _standards.fit(args, sel, rows, weights)
+    fit = _standards.fit(args, sel, rows)
     evaluated = _standards.evaluate(args, fit, rows.x, rows.y, rows.lines)
     evaluated.update(_evidence.for_fit(fit, rows, weights))
     fitted_from = _provenance(source, sel, rows, fit, args, evaluated)
     model = handover.model_document(fit, fitted_from)
     plain = handover.plain_rmse(fit, rows.x, rows.y)
-    warnings_all = list(fit.warnings) + _standards.weighting_notes(args, fit)
+    warnings_all = list(fit.warnings)
     saved = None
     if args.save_model:
         inputs = [] if source.is_stdin else [source.path]
@@ -76,7 +76,7 @@ def run(args) -> int:
 def _emit(args, source, table, sel, rows, fit, model, plain, saved, evaluated, warnings_all) -> None:
     out = dict(model)
     out.setdefault("plain_rmse", plain)
-    out.setdefault("weighting", _standards.rule_of(fit, args))
+    out.setdefault("weighting", _standards.rule_of(fit))
     out.update(
         command="fit",
         file=str(source.path) if source.path else args.file,
@@ -127,8 +127,9 @@ def statistic_rows(fit, sel, plain: float) -> list[list[str]]:
 
 def _print(source, table, sel, rows, fit, plain, saved, evaluated) -> None:
     origin = " through the origin" if fit.through_origin else ""
-    rule = getattr(fit, "weighting", None) or (sel.weights_name and "column") or "none"
-    weighting = "" if rule == "none" else f", weighting {rule}"
+    weighting = {"none": "", "column": f", weights column {sel.weights_name!r}"}.get(
+        fit.weighting, f", weighting {fit.weighting}"
+    )
     lines = [
         f"Fit of degree {fit.degree}{origin}{weighting}: {label_with_unit(sel.y_name, sel.y_unit)} against "
         f"{label_with_unit(sel.x_name, sel.x_unit)}, file {source.name}",
