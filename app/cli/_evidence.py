@@ -147,6 +147,8 @@ def for_sweep(x, y, degrees, recommended, *, weights=None, groups=None, draws=DE
         "evidence": ev.to_dict(),
         "evidence_sentence": None,
     }
+    if all(v is None for v in out["lack_of_fit_p"]):
+        out["lack_of_fit_reason"] = ev.replicates_note or "the lack-of-fit test is undefined for these degrees"
     if recommended is not None and int(recommended) in ev.degrees.tolist():
         out["evidence_sentence"] = ev_mod.evidence_sentence(ev, int(recommended))
     out["verdict_stability"] = None
