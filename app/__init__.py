@@ -13,9 +13,6 @@ views -> ``figures`` builds the charts, ``components`` the tables, ``text`` the 
 
 from __future__ import annotations
 
-from .server import DEFAULT_UPLOAD_LIMIT_BYTES
-from .store import DEFAULT_CACHE_BYTES
-
 __all__ = ["create_app"]
 
 
@@ -30,29 +27,32 @@ def upload_max_size(upload_limit_bytes: int) -> int:
 def create_app(
     data_path: str | None = None,
     *,
-    upload_limit_bytes: int = DEFAULT_UPLOAD_LIMIT_BYTES,
-    cache_bytes: int = DEFAULT_CACHE_BYTES,
+    upload_limit_bytes: int | None = None,
+    cache_bytes: int | None = None,
 ):
     """Build the dashboard; ``data_path`` (default: the invented sensor sample) is shown at start.
 
-    Raises ``fitting.DegreescopeError`` when ``data_path`` cannot be read.
+    ``upload_limit_bytes`` defaults to ``server.DEFAULT_UPLOAD_LIMIT_BYTES`` and ``cache_bytes``
+    to ``store.DEFAULT_CACHE_BYTES`` (imported here, not at package import, so that the command
+    line's ``--help`` loads neither the engine nor dash). Raises ``fitting.DegreescopeError``
+    when ``data_path`` cannot be read.
     """
     from pathlib import Path
 
     import dash
 
     from . import callbacks, layout
+    from .server import DEFAULT_UPLOAD_LIMIT_BYTES
     from .service import SAMPLE_PATH, FitService
-    from .store import DatasetStore
+    from .store import DEFAULT_CACHE_BYTES, DatasetStore
 
+    upload_limit_bytes = DEFAULT_UPLOAD_LIMIT_BYTES if upload_limit_bytes is None else upload_limit_bytes
+    cache_bytes = DEFAULT_CACHE_BYTES if cache_bytes is None else cache_bytes
     if int(upload_limit_bytes) <= 0:
         raise ValueError("upload_limit_bytes must be positive")
     store = DatasetStore(max_bytes=cache_bytes)
     service = FitService(store, upload_limit_bytes=upload_limit_bytes, sample_path=data_path or SAMPLE_PATH)
     service.sample_id()  # read the start-up data now, so a bad path fails at start
-    # The sweep's splitters come from scikit-learn, whose first import costs most of
-    # a second; pay it at start-up rather than on the first user's first split.
-    import sklearn.model_selection  # noqa: F401
 
     app = dash.Dash(
         __name__,
@@ -70,4 +70,5 @@ def create_app(
 
     app.layout = serve_layout
     callbacks.register(app, service)
+    app.degreescope_service = service  # the server's edge screen reaches the dataset store through it
     return app

@@ -79,7 +79,11 @@ def test_misspelt_option_names_the_close_one():
     ],
 )
 def test_same_column_twice_is_refused(args, words):
-    assert words in one_error(*run(*args))
+    err = one_error(*run(*args))
+    # the command line's own words, or the engine's (Table.select refuses the same cases first)
+    role = "y" if "y column" in words else "x" if "x column" in words else None
+    engine_words = f"is also {role}" if role else "are the same column"
+    assert words in err or engine_words in err, err
 
 
 def test_folds_with_group_is_refused_in_words():

@@ -274,15 +274,18 @@ def test_out_of_range_values_reach_the_callbacks(server, caplog):
     r = json.loads(data)["response"]
     assert "fit-chart" in r  # clamped to the highest degree the data allow
     status, r = c.split(ds, **{"x-column.value": ds["x"], "y-column.value": ds["y"], "folds.value": 1})
+    assert status == 200 and "fit-chart" in r  # the charts keep the folds in force
+    split_box = {"split-mode.value": "kfold", "group-column.value": None, "holdout.value": 25, "seed.value": 0}
+    status, r = c.callback("holdout-box.style", "split-mode.value", {**split_box, "folds.value": 1})
     assert status == 200
-    assert "folds" in texts(r["fit-notice"]["children"])  # the callback's own message
+    assert "folds" in texts(r["split-note"]["children"]).lower()  # the split panel's own message
     status, r = c.dataset_view({"id": "no-such-dataset"})
     assert status == 200 and GONE in texts(r["intake-report"]["children"])
     assert tracebacks(caplog) == []
 
 
-def test_without_the_screen_a_wrong_type_leaves_a_traceback(caplog):
-    """The log capture can fail: the same request straight to Dash (no screen) logs a traceback."""
+def test_without_the_screen_a_wrong_record_leaves_a_traceback(caplog):
+    """The log capture can fail: a wrongly typed record straight to Dash (no screen) logs a traceback."""
     from bench_load import Protocol
 
     from app import create_app
@@ -290,24 +293,11 @@ def test_without_the_screen_a_wrong_type_leaves_a_traceback(caplog):
     app = create_app(None)
     client = app.server.test_client()
     deps = Protocol(client.get("/_dash-dependencies").get_json())
-    sample = app.degreescope_service.info(app.degreescope_service.sample_id())
-    key = {
-        "dataset": sample.id,
-        "x": sample.default_x,
-        "y": sample.default_y,
-        "weights": None,
-        "group": None,
-        "mode": "holdout",
-        "holdout": 0.25,
-        "folds": 10,
-        "seed": 0,
-    }
     dep = deps.find("fit-chart.figure", "degree.drag_value")
     body = Protocol.body(
-        dep, {"degree.drag_value": None, "degree.value": 3, "bands.value": []}, {"split-key.data": key}, []
+        dep, {"degree.drag_value": None, "degree.value": 3, "bands.value": []}, {"split-key.data": [1, 2]}, []
     )
     caplog.set_level(logging.WARNING)
-    body = body.replace(b'"value": 3', b'"value": Infinity')
     client.post("/_dash-update-component", data=body, content_type="application/json")
     assert tracebacks(caplog) != []
 

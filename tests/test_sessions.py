@@ -94,7 +94,16 @@ class Client:
         return r["dataset"]["data"]
 
     def split(self, dataset: dict, **over):
-        inputs = {
+        inputs = {**self.split_inputs(dataset), **over}
+        return self.callback("fit-chart.figure", "dataset.data", inputs, self.split_state())
+
+    @staticmethod
+    def split_state() -> dict:
+        return {"degree.value": 1, "bands.value": []}
+
+    @staticmethod
+    def split_inputs(dataset: dict) -> dict:
+        return {
             "dataset.data": dataset,
             "x-column.value": "x",
             "y-column.value": "y",
@@ -105,8 +114,6 @@ class Client:
             "folds.value": 5,
             "seed.value": 0,
         }
-        inputs.update(over)
-        return self.callback("fit-chart.figure", "dataset.data", inputs, {"degree.value": 1, "bands.value": []})
 
     def dataset_view(self, dataset: dict):
         return self.callback("intake-report.children", "dataset.data", {"dataset.data": dataset}, {"url.search": ""})
