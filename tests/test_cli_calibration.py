@@ -359,6 +359,10 @@ def test_fit_with_a_named_weighting_matches_statsmodels_wls(capsys, assay, tmp_p
     assert got["weighting"] == "1/x2"
     doc = json.loads(model.read_text())
     assert doc["weighting"] == "1/x2" and doc["fitted_from"]["weighting"] == "1/x2" and doc["version"] >= 2
+    # what read-back needs: residual SD, dof, covariance (power basis; and the fitted basis' inverse Gram), range
+    assert doc["residual_sd"] == pytest.approx(math.sqrt(res.scale), rel=1e-8) and doc["dof"] == res.df_resid
+    np.testing.assert_allclose(doc["covariance"], res.cov_params(), rtol=1e-6)
+    assert doc["domain"] == [x.min(), x.max()] and len(doc["stable_form"]["inverse_gram"]) == 3
     # read-back uses s²/w(x0) at the new x (e-Handbook 4.5.2.1 with the weight of the rule; statsmodels WLS)
     ref = Reference(res, 1.0, weight=lambda u: 1.0 / u**2)
     rb, _ = cli_json(capsys, "predict", model, "--from-y", 45.0)

@@ -316,3 +316,10 @@ def test_exclude_reason_needs_rows_and_all_rows_cannot_go(capsys, tmp_path):
     path.write_text("x,y\n1,2\n2,4\n")
     err = one_error(*cli(capsys, "fit", path, "--degree", 1, "--exclude-rows", "2-3"))
     assert "leaves no rows" in err
+
+
+def test_excluded_rows_need_the_rows_in_memory(capsys, monkeypatch):
+    """Data read in chunks cannot leave out file lines: refused by name, as the other in-memory options are."""
+    monkeypatch.setattr(sweep, "STREAM_ABOVE_BYTES", 1000)  # stands in for 64 MiB
+    err = one_error(*cli(capsys, "sweep", ROOT / "sample_data" / "van_fuel.csv", "--exclude-rows", 9))
+    assert "--exclude-rows" in err and "read in chunks" in err
