@@ -66,7 +66,9 @@ def add_parser(sub) -> None:
         "--level", type=_args.finite_float, default=0.95, help="interval level between 0 and 1 (default: 0.95)"
     )
     _args.add_json(p)
-    p.add_argument("--output", metavar="PATH.csv", help="also write the predictions to this CSV file")
+    p.add_argument(
+        "--output", metavar="PATH.csv", help="also write the predictions (or the read-back rows) to this CSV file"
+    )
     _args.add_intake(p)
     p.set_defaults(func=run)
 
