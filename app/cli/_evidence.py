@@ -138,7 +138,10 @@ def for_sweep(x, y, degrees, recommended, *, weights=None, groups=None, draws=DE
     import fitting as ev_mod
 
     degrees = [int(d) for d in degrees]
-    ev = ev_mod.degree_evidence(x, y, degrees, weights=weights)
+    try:
+        ev = ev_mod.degree_evidence(x, y, degrees, weights=weights)
+    except ev_mod.DegreescopeError as exc:  # the sweep stands; say why its evidence does not
+        return {"evidence": None, "evidence_reason": str(exc)}
     out: dict[str, Any] = {
         "lack_of_fit_f": _by_degree(ev, "lack_of_fit_f", degrees),
         "lack_of_fit_p": _by_degree(ev, "lack_of_fit_p", degrees),

@@ -112,7 +112,12 @@ def evaluate(args, fit, x, y, lines) -> dict[str, Any]:
     """``back_calculation`` and ``weighting_comparison`` (engine dicts), or None with the reason for each."""
     import fitting
 
-    out: dict[str, Any] = {"back_calculation": None, "weighting_comparison": None}
+    out: dict[str, Any] = {
+        "back_calculation": None,
+        "back_calculation_reason": None,
+        "weighting_comparison": None,
+        "weighting_comparison_reason": None,
+    }
     reason = None
     if fit.degree < 1:
         reason = "a degree-0 fit is a constant: standards cannot be read back through it"
