@@ -5,7 +5,8 @@
 On --rows rows of unsorted invented data, times verdict_stability(draws=--draws) and one
 sweep_degrees call with the same degrees (0-20) and folds (10), in the same run (medians of
 interleaved repeats), and prints the ratio. The design target is a ratio of at most 20: the rows
-are reduced once into mini-blocks and each redraw only merges their small factors.
+are reduced once into mini-blocks, each redraw only merges their small factors, and
+sweep_from_blocks runs with diagnostics=False (only what the recommendation needs).
 """
 
 from __future__ import annotations

@@ -27,7 +27,8 @@ Public surface (everything else is private and may change):
     evidence_sentence(evidence, recommended_degree) -> str
     mandel_test(x, y, *, weights=None) -> MandelResult   # line against quadratic (ISO 8466-1)
     influence(x, y, degree_or_fit, *, weights=None, lines=None) -> Influence
-    verdict_stability(x, y, *, draws=200, seed=0, weights=None, groups=None, degrees=None, folds=10)
+    verdict_stability(x, y, *, draws=200, seed=0, weights=None, groups=None, degrees=None, folds=None,
+                      repeats="auto", replicates="auto", replicate_tolerance=0.0)
                                                       -> VerdictStability   # share of redraws per degree
     replicate_levels(x, tolerance=0.0)                # x levels, replicates pooled
     DegreeEvidence, MandelResult, Influence, VerdictStability
@@ -52,7 +53,8 @@ Errors raised on purpose derive from DegreescopeError:
     ├── ColumnError
     └── FitError
 
-    RankWarning                                       # a warning, not an error
+    RankWarning                                       # kept for callers that filter it; a rank-deficient
+                                                      # degree now raises FitError instead
 
 This package never imports the dashboard (``app``), dash or plotly.
 """

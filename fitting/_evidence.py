@@ -39,26 +39,32 @@ were drawn again.
 
 Verdict stability: design
 -------------------------
-Units are what a fold holds out whole: rows, or x levels when x has replicates, or the user's
-groups. Every redraw deals the units to folds at random in equal shares (as KFold does),
-``repeats`` times (the verdict's own repeats), and hands the resulting blocks to
-``sweep_from_blocks``, whose one-standard-error rule gives that redraw's degree.
+The rule is the verdict's (``_verdict.verdict_folds``, shared with ``verdict_sweep``): units are
+what a fold holds out whole (rows; x levels by ``replicate_levels`` when x has replicates; the
+user's groups), with the verdict's number of folds and repeats and its degrees. Every redraw deals
+the units to folds at random in equal shares, with KFold's shuffle (``_sweep.kfold_deal``, one
+numpy RandomState(seed) for all redraws), ``repeats`` times, and hands the resulting blocks to
+``sweep_from_blocks``, whose one-standard-error rule gives that redraw's degree. With rows as
+units the first redraw is therefore exactly the verdict's folds (KFold with random_state=seed,
+repeated); with x levels the verdict deals them by size (as GroupKFold) and a redraw at random.
+With a group column each group is its own fold, as in the verdict, so every redraw is the same
+partition and one sweep decides all of them.
 
 * Up to ``EXACT_REDRAW_LIMIT`` units, each redraw deals the units themselves and reduces each
   fold's rows to its factor (``block_factor``): exact redraws, one pass over the rows each.
 * Above it, the rows are reduced once: the units are shuffled once into ``MINI_BLOCKS``
   mini-blocks (a multiple of the fold count), each reduced to its (P + 1) x (P + 1) factor. A
   redraw deals mini-blocks to folds and merges their factors (``Block.merge``, TSQR); it touches
-  no rows: 200 redraws at 10^5 rows cost about 20-28 sweeps (benchmarks/bench_stability.py, 2 loaded
-  cores), most of it in ``sweep_from_blocks`` itself. Each redraw is, on its own, a uniformly random
+  no rows: 200 redraws at 10^5 rows cost about 11-20 sweeps (benchmarks/bench_stability.py, 2 cores at
+  load 2-11), most of it in ``sweep_from_blocks`` itself. Each redraw is, on its own, a uniformly random
   equal-share partition of the units (a random partition into mini-blocks dealt at random is one);
   redraws are not independent of each other, because units that share a mini-block stay together
   in every redraw. Of the pairs of units that share a fold in a redraw, about folds / mini-blocks
   (5 % with 10 folds and 200 mini-blocks) share it in every redraw; the shares are therefore
   estimated a little less precisely than with independent redraws, not with a bias.
-* Only the recommendation of each redraw is kept, so ``sweep_from_blocks`` gets a display block
-  without rows: no display fit is made, and the conditioning, oscillation and band checks on it
-  (which do not enter the one-standard-error rule) are skipped.
+* Only the recommendation of each redraw is kept, so ``sweep_from_blocks`` runs with
+  ``diagnostics=False``: no full-data factor, no display fit, and none of the conditioning,
+  oscillation and band checks (none of which enter the one-standard-error rule).
 """
 
 from __future__ import annotations
@@ -73,8 +79,11 @@ from scipy.special import fdtrc, fdtri, stdtrit
 
 from . import _basis
 from ._errors import FitError
-from ._polyfit import PolynomialFit, single_thread_blas, validate_xyw
-from ._sweep import MAX_SEED, Block, Split, block_factor, normalise_degrees, sweep_from_blocks
+from ._linalg import single_thread_blas
+from ._polyfit import PolynomialFit, pow2_exponent, validate_xyw
+from ._sweep import Block, Split, block_factor, kfold_deal, normalise_degrees, sweep_from_blocks
+from ._validate import check_seed
+from ._verdict import VERDICT_DEGREES, VerdictFolds, check_tolerance, replicate_levels, verdict_folds
 
 __all__ = [
     "DegreeEvidence",
@@ -92,9 +101,6 @@ __all__ = [
 ALPHA = 0.05  # significance level of the sentences; common practice, no source
 MANDEL_LEVEL = 0.99  # ISO 8466-1 compares PG with F(1, N - 3) at 99 % [memory]
 SMALL_N = 30  # below this many rows the leverage threshold is 3p/n; common practice, no source
-VERDICT_DEGREES = range(0, 21)  # the degrees the verdict rule sweeps
-VERDICT_REPEAT_LIMIT = 5_000  # the verdict repeats 10-fold CV 5 times up to this many rows
-VERDICT_REPEATS = 5
 EXACT_REDRAW_LIMIT = 5_000  # units; above this, redraws deal mini-blocks
 MINI_BLOCKS = 200
 MANDEL_CAUTION = (
@@ -140,21 +146,6 @@ def _f_sf(f, d1, d2) -> np.ndarray:
 
 def _fmt_p(p: float) -> str:
     return "p < 0.001" if p < 0.001 else f"p = {p:.2g}"
-
-
-def replicate_levels(x, tolerance: float = 0.0) -> np.ndarray:
-    """An x-level label per row (0 .. m - 1, in order of x).
-
-    Sorted x values no more than ``tolerance`` (in x units) above their neighbour share a level,
-    so a chain of close values forms one level; 0 means exactly equal values only.
-    """
-    x = np.asarray(x, dtype=np.float64)
-    order = np.argsort(x, kind="stable")
-    new = np.ones(x.size, dtype=bool)
-    new[1:] = np.diff(x[order]) > tolerance
-    labels = np.empty(x.size, dtype=np.int64)
-    labels[order] = np.cumsum(new) - 1
-    return labels
 
 
 def _pure_error(y: np.ndarray, w: np.ndarray | None, labels: np.ndarray, m: int) -> float:
@@ -311,11 +302,7 @@ def degree_evidence(x, y, degrees=VERDICT_DEGREES, *, weights=None, replicate_to
         x values within this distance (x units, chained along sorted x) count as one level.
     """
     x, y, w = validate_xyw(x, y, weights)
-    tol = float(replicate_tolerance)
-    if not (math.isfinite(tol) and tol >= 0.0):
-        raise FitError(
-            f"The replicate tolerance must be 0 or a positive number in x units, not {replicate_tolerance!r}."
-        )
+    tol = check_tolerance(replicate_tolerance)
     degs, notes = normalise_degrees(degrees)
     labels = replicate_levels(x, tol)
     n, m = x.size, int(labels.max()) + 1
@@ -741,30 +728,6 @@ def _stability_sentence(degs: np.ndarray, counts: np.ndarray, draws: int) -> str
     return head + ("; " + ", ".join(rest) if rest else "")
 
 
-def _units(x, groups, replicates) -> tuple[np.ndarray, str]:
-    """A unit label per row (what a fold holds out whole) and its name."""
-    if groups is not None:
-        g = np.asarray(groups).ravel()
-        if g.size != x.size:
-            raise FitError(f"Expected one group label per row; got {g.size} labels for {x.size} rows.")
-        g = g.astype(str) if g.dtype.kind not in "iub" else g
-        return np.unique(g, return_inverse=True)[1].astype(np.int64).ravel(), "groups"
-    if replicates not in ("auto", True, False):
-        raise FitError(f'Replicates must be "auto", True or False, not {replicates!r}.')
-    levels = replicate_levels(x)
-    has_reps = int(levels.max()) + 1 < x.size
-    if replicates is True or (replicates == "auto" and has_reps):
-        return levels, "x levels"
-    return np.arange(x.size, dtype=np.int64), "rows"
-
-
-def _deal(rng, count: int, folds: int) -> np.ndarray:
-    """Fold of each of ``count`` items, dealt at random in equal shares (sizes differ by at most one)."""
-    fold = np.empty(count, dtype=np.int64)
-    fold[rng.permutation(count)] = np.arange(count) % folds
-    return fold
-
-
 def _groups_of(labels: np.ndarray, k: int) -> list[np.ndarray]:
     """Row indices of each label 0..k-1."""
     order = np.argsort(labels, kind="stable")
@@ -781,7 +744,7 @@ def _exact_redraws(t, y, w, units, folds, ncols):
     n_units = int(units.max()) + 1
 
     def redraw(rng):
-        fold = _deal(rng, n_units, folds)[units]
+        fold = kfold_deal(rng, n_units, folds)[units]
         blocks = {
             j: block_factor(t[idx], y[idx], ncols, None if w is None else w[idx])
             for j, idx in enumerate(_groups_of(fold, folds))
@@ -795,11 +758,11 @@ def _mini_block_redraws(t, y, w, units, folds, ncols, rng):
     """A redraw function that deals pre-reduced mini-blocks to folds and merges their factors."""
     n_units = int(units.max()) + 1
     count = min(folds * max(1, MINI_BLOCKS // folds), n_units)
-    member = _deal(rng, n_units, count)[units]
+    member = kfold_deal(rng, n_units, count)[units]
     minis = [block_factor(t[idx], y[idx], ncols, None if w is None else w[idx]) for idx in _groups_of(member, count)]
 
     def redraw(rng):
-        fold = _deal(rng, count, folds)
+        fold = kfold_deal(rng, count, folds)
         return {j: Block.merge(minis[i] for i in np.nonzero(fold == j)[0]) for j in range(folds)}
 
     return redraw, f"{count} mini-blocks of units reduced once, dealt to folds at each redraw", count
@@ -820,37 +783,62 @@ def _carry_cap(x, n_units: int, held_out: str, folds: int) -> tuple[int, str]:
 
 
 def _redraw_setup(x, y, w, units, folds, degs, rng):
-    """(redraw function, method, mini-block count or None, keyword arguments for sweep_from_blocks)."""
+    """(redraw function, method, mini-block count or None, keyword arguments for sweep_from_blocks).
+
+    y is divided by 2**y_exp as the in-memory sweep does (extreme magnitudes), so a redraw's blocks
+    equal that sweep's blocks for the same folds.
+    """
     ncols = degs[-1] + 1
     lo, hi = float(x.min()), float(x.max())
     offset, scale = _basis.domain_map(lo, hi)
     t = _basis.to_window(x, offset, scale)
+    y_exp = pow2_exponent(y)
+    ys = np.ldexp(y, -y_exp) if y_exp else y
     common = {
         "ncols": ncols,
         "offset": offset,
         "scale": scale,
         "domain": (lo, hi),
-        "y_range": (float(y.min()), float(y.max())),
+        "y_range": (float(ys.min()), float(ys.max())),
         "scheme": f"{folds}-fold cross-validation, redrawn",
+        "y_exp": y_exp,
     }
     if int(units.max()) + 1 <= EXACT_REDRAW_LIMIT:
-        return (*_exact_redraws(t, y, w, units, folds, ncols), common)
-    return (*_mini_block_redraws(t, y, w, units, folds, ncols, rng), common)
+        return (*_exact_redraws(t, ys, w, units, folds, ncols), common)
+    return (*_mini_block_redraws(t, ys, w, units, folds, ncols, rng), common)
 
 
-def _check_stability_args(draws, seed, folds, repeats, n) -> tuple[int, int, int, int]:
+def _check_stability_args(draws, seed, folds, repeats, plan: VerdictFolds) -> tuple[int, int, int, int]:
+    """Draws, seed, folds and repeats as whole numbers; folds and repeats default to the verdict's."""
+    seed = check_seed(seed)
     try:
-        draws, seed, folds = int(draws), int(seed), int(folds)
-        repeats = (VERDICT_REPEATS if n <= VERDICT_REPEAT_LIMIT else 1) if repeats == "auto" else int(repeats)
+        draws = int(draws)
+        folds = plan.folds if folds is None else int(folds)
+        repeats = plan.repeats if repeats in (None, "auto") else int(repeats)
     except (TypeError, ValueError):
         raise FitError("Draws, seed, folds and repeats must be whole numbers.") from None
     if draws < 1 or repeats < 1:
         raise FitError(f"Draws and repeats must be at least 1, not {draws} and {repeats}.")
     if folds < 2:
         raise FitError(f"Cross-validation needs at least 2 folds, not {folds}.")
-    if not 0 <= seed <= MAX_SEED:
-        raise FitError(f"The seed must be a whole number from 0 to {MAX_SEED}, not {seed}.")
+    if folds > plan.n_units:
+        raise FitError(
+            f"Cannot make {folds} folds from {plan.n_units} {plan.held_out}; use at most {plan.n_units} folds."
+        )
     return draws, seed, folds, repeats
+
+
+def _count_verdicts(redraw, rng, *, draws, repeats, folds, degs, common, fixed: bool) -> np.ndarray:
+    """How often each degree is the verdict over ``draws`` redraws (one sweep when every redraw is the same)."""
+    counts = np.zeros(len(degs), dtype=np.int64)
+    splits = _splits(folds)
+    for _ in range(1 if fixed else draws):
+        parts = [(redraw(rng), splits) for _ in range(repeats)]
+        with warnings.catch_warnings():  # a degree that fails in a split is reported by the sweep, not warned
+            warnings.simplefilter("ignore", RuntimeWarning)
+            verdict = sweep_from_blocks(parts, degs, diagnostics=False, **common).recommended_degree
+        counts[degs.index(verdict)] += draws if fixed else 1
+    return counts
 
 
 def verdict_stability(
@@ -862,40 +850,42 @@ def verdict_stability(
     weights=None,
     groups=None,
     degrees=None,
-    folds: int = 10,
+    folds: int | None = None,
     repeats="auto",
     replicates="auto",
+    replicate_tolerance: float = 0.0,
 ) -> VerdictStability:
     """Share of ``draws`` redraws of the folds in which each degree would be recommended.
 
-    Each redraw deals the units (rows; whole x levels when x has replicates and ``replicates`` is
-    "auto" or True; whole ``groups`` when given) to ``folds`` folds, ``repeats`` times ("auto": 5 up
-    to 5,000 rows, else 1, as the verdict does), and applies ``sweep_from_blocks``'s one-standard-error
-    rule. The same seed gives the same shares. See the module docstring for the design.
+    The units, folds, repeats and degrees are the verdict's (``fitting.verdict_sweep``, through the
+    same ``verdict_folds``): rows dealt to min(10, n) folds, 5 repeats up to 5,000 rows; whole x
+    levels (``replicate_levels`` with ``replicate_tolerance``, x units) when x has replicates and
+    ``replicates`` is "auto"; each group on its own when ``groups`` are given. ``folds`` and
+    ``repeats`` override them. Each redraw deals the units to the folds in equal shares as KFold
+    does and applies ``sweep_from_blocks``'s one-standard-error rule. With rows as units (up to
+    5,000 of them), the first redraw is the verdict's own folds for the same seed. When every fold
+    holds one unit, every redraw is the same partition (up to the order of the folds), so one sweep
+    decides them all. See the module docstring for the design.
     """
     x, y, w = validate_xyw(x, y, weights)
-    draws, seed, folds, repeats = _check_stability_args(draws, seed, folds, repeats, x.size)
-    units, held_out = _units(x, groups, replicates)
-    n_units = int(units.max()) + 1
-    if folds > n_units:
-        raise FitError(f"Cannot make {folds} folds from {n_units} {held_out}; use at most {n_units} folds.")
+    plan = verdict_folds(x, groups=groups, replicates=replicates, replicate_tolerance=replicate_tolerance)
+    draws, seed, folds, repeats = _check_stability_args(draws, seed, folds, repeats, plan)
+    units, held_out, n_units = plan.units, plan.held_out, plan.n_units
     degs, notes = normalise_degrees(VERDICT_DEGREES if degrees is None else degrees)
+    notes += list(plan.notes)
     cap, why = _carry_cap(x, n_units, held_out, folds)
     if degs[-1] > cap:
         notes.append(f"Degrees above {cap} were left out: {why}.")
         degs = [d for d in degs if d <= cap] or [cap]
-    rng = np.random.default_rng(seed)
-    counts = np.zeros(len(degs), dtype=np.int64)
+    rng = np.random.RandomState(seed)
+    fixed = folds == n_units
     with single_thread_blas():
         redraw, method, minis, common = _redraw_setup(x, y, w, units, folds, degs, rng)
-        splits = _splits(folds)
-        no_display = Block(r=np.zeros((degs[-1] + 2, degs[-1] + 2)), n=0, wsum=0.0, wysum=0.0)
-        for _ in range(draws):
-            parts = [(redraw(rng), splits) for _ in range(repeats)]
-            with warnings.catch_warnings():  # a degree that fails in a split is reported by the sweep, not warned
-                warnings.simplefilter("ignore", RuntimeWarning)
-                verdict = sweep_from_blocks(parts, degs, display_block=no_display, **common).recommended_degree
-            counts[degs.index(verdict)] += 1
+        counts = _count_verdicts(
+            redraw, rng, draws=draws, repeats=repeats, folds=folds, degs=degs, common=common, fixed=fixed
+        )
+    if fixed:
+        method = "one unit per fold: every redraw is the same partition, so one sweep decides them all"
     d = np.asarray(degs, dtype=np.int64)
     imax = int(np.argmax(counts))
     return VerdictStability(

@@ -60,7 +60,6 @@ from __future__ import annotations
 
 import decimal
 import math
-import warnings as _warnings
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -69,7 +68,7 @@ from numpy.typing import ArrayLike
 from scipy.linalg import solve_triangular
 
 from . import _basis
-from ._errors import FitError, RankWarning
+from ._errors import FitError
 from ._linalg import EPS_LD as _EPS_LD
 from ._linalg import LD, _cholesky_ld, _solve_rtr, condition_of, qr_r, single_thread_blas, t_quantile
 from ._weighting import COLUMN_RULE, check_weighting, weight_at, weights_for
@@ -745,8 +744,7 @@ def _qr_start(d: _Design, degree: int) -> _Start:
             f"The design at degree {degree} is numerically rank deficient (condition number {cond:.3g}); "
             "the coefficients are not determined by the data. Use a lower degree."
         )
-        # the warning reaches callers that filter warnings; the error stops the fit
-        _warnings.warn(msg, RankWarning, stacklevel=3)
+        # an error only: a caller that catches it should not also find a warning on stderr
         raise FitError(msg)
     coef = solve_triangular(r_qr, r_aug[:ncols, ncols]).astype(LD)
     # Preconditioner for the corrections: the extended-precision factor of the Gram matrix, when it

@@ -7,14 +7,12 @@ factor R of its augmented design [A | y] and does everything else on those
 small factors. This module builds the same factors without ever holding more
 than one chunk of rows:
 
-1. The domain map t = (x - offset) / scale needs the range of x first. A
-   Parquet source gives it from its row-group statistics; a CSV is read twice,
-   a fast scan of the two columns (row count, dropped rows, ranges) and then
-   the fitting pass. The scan costs about as much as parsing the file once,
-   and keeps the map exact, so the factors equal those of the in-memory path
-   to rounding. (When Parquet statistics are missing, or turn out wider than
-   the rows actually used because the extreme rows were dropped, a scan or a
-   second pass with the exact map is made; ``info["passes"]`` says how many.)
+1. The domain map t = (x - offset) / scale needs the range of x first: from a
+   Parquet source's row-group statistics, or from a fast scan of a CSV's two
+   columns (row count, dropped rows, ranges; about one parse of the file). The
+   map is exact, so the factors equal those of the in-memory path to rounding.
+   When the statistics are missing, or wider than the rows used, a scan or a
+   second pass is made (``_run_passes``; ``info["passes"]`` says how many).
 2. Each chunk's rows get a fold label from a hash of their global row index
    and the seed (``fold_labels``), so no row count is needed up front and the
    split does not depend on the chunk size. Each label's rows are reduced to a
@@ -25,7 +23,8 @@ than one chunk of rows:
 
 With ``engine="dask"`` the per-label factors of each Parquet row group, or
 each byte range of a CSV, are computed on a ``dask.distributed`` cluster (a
-local one on 127.0.0.1 by default) and merged on the client the same way.
+local one on 127.0.0.1 by default) and merged on the client the same way
+(``_dask.py``).
 
 Folds
 -----
@@ -40,6 +39,13 @@ sweep with the same seed differ by the luck of the split; given the same
 labels (``sweep_degrees(x, y, folds=fold_labels(...))``) they agree to
 rounding. The folds are balanced only in expectation (each holds n/k rows
 give or take about sqrt(n/k)).
+
+Extreme magnitudes
+------------------
+As in the in-memory sweep, y beyond 2**±100 is divided by an exact power of two
+(``_polyfit.pow2_exponent`` of the largest |y|, known from the scan) before any
+sum of squares, and every reported error is multiplied back (``y_exp`` of
+``sweep_from_blocks``).
 
 Dropped rows
 ------------
@@ -59,88 +65,33 @@ from typing import Callable
 import numpy as np
 
 from . import _basis
-from ._errors import ColumnError, DegreescopeError, FitError
-from ._polyfit import qr_r, single_thread_blas
+from ._errors import ColumnError, FitError
+from ._linalg import qr_r, single_thread_blas
+from ._polyfit import pow2_exponent
 from ._sweep import (
-    MAX_DEGREE,
     Block,
     DegreeSweep,
     Split,
     block_factor,
     cap_degrees,
-    holdout_fraction,
-    normalise_degrees,
+    check_holdout_sizes,
+    fold_labels,
+    holdout_mask,
     sweep_from_blocks,
 )
-from .intake import (
-    FileSource,
-    NeedsText,
-    csv_ranges,
-    first_line,
-    parquet_x_range,
-    pick_source_columns,
-    read_piece,
-    resolve_source,
-    source_chunks,
-)
+from ._validate import MAX_DEGREE, check_degrees, check_folds, check_holdout, check_seed
+from .intake import FileSource, NeedsText, parquet_x_range, pick_source_columns, resolve_source, source_chunks
 
 __all__ = ["sweep_source", "fold_labels", "holdout_mask"]
 
-_GAMMA = np.uint64(0x9E3779B97F4A7C15)
-_M1 = np.uint64(0xBF58476D1CE4E5B9)
-_M2 = np.uint64(0x94D049BB133111EB)
 #: a label whose rows hold more distinct x values than this cannot limit the degree
 _DISTINCT_LIMIT = MAX_DEGREE + 1
-#: bytes per CSV block handed to the dask workers
-_DASK_CSV_BLOCK = 32 << 20
-#: how long to wait for a remote dask scheduler
-_CONNECT_TIMEOUT = "20s"
 
 Progress = Callable[[int, "int | None"], None]
 
 
 # ----------------------------------------------------------------------------
-# folds from a hash of the row index
-
-
-def _row_hash(row_index: np.ndarray, seed: int) -> np.ndarray:
-    """splitmix64 output number i + 1 for the generator state ``seed``, vectorised (uint64)."""
-    idx = np.asarray(row_index)
-    if idx.dtype.kind not in "iu":
-        raise FitError("Row indices must be whole numbers.")
-    if idx.dtype.kind == "i" and idx.size and int(idx.min()) < 0:
-        raise FitError("Row indices must be 0 or more.")
-    z = idx.astype(np.uint64) + np.uint64(1)
-    with np.errstate(over="ignore"):
-        z *= _GAMMA
-        z += np.uint64(int(seed) & 0xFFFFFFFFFFFFFFFF)
-        z ^= z >> np.uint64(30)
-        z *= _M1
-        z ^= z >> np.uint64(27)
-        z *= _M2
-        z ^= z >> np.uint64(31)
-    return z
-
-
-def fold_labels(row_index: np.ndarray, k: int, seed: int) -> np.ndarray:
-    """Fold label 0 .. k-1 (int64) of each global row index: the splitmix64 hash of the index and seed, mod k.
-
-    Deterministic: the same index and seed always give the same label,
-    whatever the chunking. Each fold gets n/k rows in expectation.
-    """
-    try:
-        k = int(k)
-    except (TypeError, ValueError):
-        raise FitError(f"Folds must be a whole number, not {k!r}.") from None
-    if k < 2:
-        raise FitError(f"Cross-validation needs at least 2 folds, not {k}; 5 or 10 are common.")
-    return (_row_hash(row_index, seed) % np.uint64(k)).astype(np.int64)
-
-
-def holdout_mask(row_index: np.ndarray, fraction: float, seed: int) -> np.ndarray:
-    """True for the rows held out for testing: hash (top 53 bits, as a fraction) below ``fraction``."""
-    u = (_row_hash(row_index, seed) >> np.uint64(11)).astype(np.float64) * (1.0 / 9007199254740992.0)
-    return u < float(fraction)
+# folds from a hash of the row index (``_sweep.fold_labels`` and ``_sweep.holdout_mask``)
 
 
 @dataclass(frozen=True)
@@ -163,21 +114,14 @@ class _Labeller:
 
 
 def _make_labeller(folds, holdout, seed) -> _Labeller:
-    try:
-        seed = int(seed)
-    except (TypeError, ValueError):
-        raise FitError(f"The seed must be a whole number, not {seed!r}.") from None
+    """The split settings, checked as the in-memory sweep checks them (``_validate``)."""
+    seed = check_seed(seed)
     if holdout is not None:
-        return _Labeller("holdout", 2, holdout_fraction(holdout), seed)
+        return _Labeller("holdout", 2, check_holdout(holdout), seed)
     if isinstance(folds, bool) or np.ndim(folds) != 0:
         raise FitError("For a file source, folds must be a whole number; fold labels per row need the in-memory sweep.")
-    try:
-        k = int(folds)
-    except (TypeError, ValueError):
-        raise FitError(f"Folds must be a whole number, not {folds!r}.") from None
-    if k < 2:
-        raise FitError(f"Cross-validation needs at least 2 folds, not {k}; 5 or 10 are common.")
-    return _Labeller("folds", k, 0.0, seed)
+    # the rows are not counted yet: ``_splits`` checks the folds against them after the pass
+    return _Labeller("folds", check_folds(folds, None), 0.0, seed)
 
 
 # ----------------------------------------------------------------------------
@@ -228,6 +172,7 @@ class _Plan:
     offset: float
     scale: float
     labeller: _Labeller
+    y_exp: int = 0  # the blocks hold y / 2**y_exp (extreme magnitudes, as ``_polyfit.pow2_exponent``)
 
 
 def _clean(xa: np.ndarray, ya: np.ndarray, start: int):
@@ -246,9 +191,12 @@ def _scan_chunk(xa: np.ndarray, ya: np.ndarray, invalid: int, stats: _Stats) -> 
     used = int(ok.sum())
     stats.rows_used += used
     if used:
-        xs, ys = xa[ok], ya[ok]
-        stats.xmin, stats.xmax = min(stats.xmin, float(xs.min())), max(stats.xmax, float(xs.max()))
-        stats.ymin, stats.ymax = min(stats.ymin, float(ys.min())), max(stats.ymax, float(ys.max()))
+        _take_ranges(stats, xa[ok], ya[ok])
+
+
+def _take_ranges(stats: _Stats, xs: np.ndarray, ys: np.ndarray) -> None:
+    stats.xmin, stats.xmax = min(stats.xmin, float(xs.min())), max(stats.xmax, float(xs.max()))
+    stats.ymin, stats.ymax = min(stats.ymin, float(ys.min())), max(stats.ymax, float(ys.max()))
 
 
 def _reduce_chunk(
@@ -263,14 +211,15 @@ def _reduce_chunk(
     if n == 0:
         return
     stats.rows_used += n
-    stats.xmin, stats.xmax = min(stats.xmin, float(xa.min())), max(stats.xmax, float(xa.max()))
-    stats.ymin, stats.ymax = min(stats.ymin, float(ya.min())), max(stats.ymax, float(ya.max()))
+    _take_ranges(stats, xa, ya)
     labels = plan.labeller.labels(idx)
     nl = plan.labeller.n_labels
     small = labels.astype(np.uint16) if nl < 65536 else labels
     order = np.argsort(small, kind="stable")
     counts = np.bincount(labels, minlength=nl)
     xs, ys = xa[order], ya[order]
+    if plan.y_exp:
+        ys = np.ldexp(ys, -plan.y_exp)  # exact; stats keep y's own units
     t = _basis.to_window(xs, plan.offset, plan.scale)
     ends = np.cumsum(counts)
     begin = 0
@@ -362,7 +311,7 @@ def sweep_source(
     """
     started = time.perf_counter()
     labeller = _make_labeller(folds, holdout, seed)
-    degs, notes = normalise_degrees(degrees)
+    degs, notes = check_degrees(degrees)
     try:
         chunk_rows = int(chunk_rows)
     except (TypeError, ValueError):
@@ -379,11 +328,14 @@ def sweep_source(
     ncols = degs[-1] + 1
     with single_thread_blas():
         if engine == "dask":
-            blocks, stats, info = _run_dask(src, xname, yname, ncols, labeller, scheduler, progress)
+            from ._dask import run_dask  # dask is optional: imported only when asked for
+
+            blocks, stats, info = run_dask(src, xname, yname, ncols, labeller, scheduler, progress)
         else:
             blocks, stats, info = _run_numpy(src, xname, yname, ncols, labeller, chunk_rows, progress)
 
-    result = _finish(blocks, stats, degs, ncols, labeller, info["offset"], info["scale"], notes, xname, yname)
+    geometry = (info["offset"], info["scale"], info["y_exp"])
+    result = _finish(blocks, stats, degs, ncols, labeller, geometry, notes, (xname, yname))
     rows_dropped = stats.rows_read - stats.rows_used + stats.rows_skipped
     out = {
         "rows_used": stats.rows_used,
@@ -407,10 +359,14 @@ def _no_rows_error(xname: str, yname: str) -> ColumnError:
     )
 
 
-def _finish(blocks, stats, degs, ncols, labeller, offset, scale, notes, xname, yname) -> DegreeSweep:
-    """The DegreeSweep of the per-label factors: splits, the distinct-x degree cap, the statistics."""
+def _finish(blocks, stats, degs, ncols, labeller, geometry, notes, names) -> DegreeSweep:
+    """The DegreeSweep of the per-label factors: splits, the distinct-x degree cap, the statistics.
+
+    ``geometry`` is (offset, scale, y_exp) of the blocks; y's range is handed on in the blocks' units.
+    """
+    offset, scale, y_exp = geometry
     if stats.rows_used == 0:
-        raise _no_rows_error(xname, yname)
+        raise _no_rows_error(*names)
     if stats.xmax <= stats.xmin:
         raise FitError("x has fewer than two distinct values; a curve needs at least two. Choose another x column.")
     splits, scheme = _splits(blocks, stats, labeller, notes)
@@ -433,13 +389,14 @@ def _finish(blocks, stats, degs, ncols, labeller, offset, scale, notes, xname, y
         offset=offset,
         scale=scale,
         domain=(stats.xmin, stats.xmax),
-        y_range=(stats.ymin, stats.ymax),
+        y_range=(math.ldexp(stats.ymin, -y_exp), math.ldexp(stats.ymax, -y_exp)),
         scheme=scheme,
         notes=notes,
         single_split_rule=labeller.kind == "holdout",
         display_block=display_block,
         display_domain=display_domain,
         test_mask=None,
+        y_exp=y_exp,
     )
 
 
@@ -447,11 +404,7 @@ def _splits(blocks, stats, labeller, notes) -> tuple[list[Split], str]:
     """The train/test splits over the labels that received rows, and the scheme's wording."""
     present = sorted(blocks)
     if labeller.kind == "folds":
-        if labeller.k > stats.rows_used:
-            raise FitError(
-                f"Cannot make {labeller.k} folds from {stats.rows_used} rows; "
-                f"use at most {stats.rows_used} folds (10 is common)."
-            )
+        check_folds(labeller.k, stats.rows_used)
         if len(present) < 2:
             raise FitError("Fewer than 2 folds received rows; use fewer folds or more data.")
         empty = [lab for lab in range(labeller.k) if lab not in blocks]
@@ -462,13 +415,8 @@ def _splits(blocks, stats, labeller, notes) -> tuple[list[Split], str]:
             )
         splits = [Split(test=(j,), train=tuple(o for o in present if o != j)) for j in present]
         return splits, f"{labeller.k}-fold cross-validation by row hash (seed {labeller.seed})"
-    n_test = blocks[1].n if 1 in blocks else 0
-    n_train = blocks[0].n if 0 in blocks else 0
-    if n_test < 1 or n_train < 2:
-        raise FitError(
-            f"A {labeller.fraction:.0%} holdout of {stats.rows_used} rows leaves {n_train} for training and "
-            f"{n_test} for testing; use a different fraction or more data."
-        )
+    n_train, n_test = (blocks[lab].n if lab in blocks else 0 for lab in (0, 1))
+    check_holdout_sizes(labeller.fraction, stats.rows_used, n_train, n_test)
     return [Split(test=(1,), train=(0,))], f"{labeller.fraction:.0%} holdout by row hash (seed {labeller.seed})"
 
 
@@ -492,14 +440,17 @@ def _distinct_cap(stats, label_sets) -> int:
 
 
 def _run_passes(engine, src: FileSource, x: str, y: str, ncols: int, labeller: _Labeller):
-    """Scan for the x range (or take Parquet statistics), then reduce; redo when the range moved.
+    """Scan for the x and y ranges (or take Parquet statistics), then reduce; redo when a range moved.
 
     ``engine.scan(as_text)`` returns the merged scan statistics, or None when a column
     holds text and must be read as strings; ``engine.reduce(plan, as_text, total)``
-    returns (per-label blocks, statistics, pieces).
+    returns (per-label blocks, statistics, pieces). The x range fixes the domain map and
+    the y range the power of two y is divided by (``_y_exponent``); Parquet statistics give
+    only x, so a y beyond 2**±100 there costs a second pass.
     """
     passes = 0
     as_text = False
+    y_exp = 0
     rng = parquet_x_range(src, x, y) if src.kind == "parquet" else None
     if rng is not None:
         total, lo, hi = rng
@@ -511,18 +462,23 @@ def _run_passes(engine, src: FileSource, x: str, y: str, ncols: int, labeller: _
             as_text = as_text or scan is None
         if scan.rows_used == 0:
             raise _no_rows_error(x, y)
-        total, lo, hi = scan.rows_read, scan.xmin, scan.xmax
+        total, lo, hi, y_exp = scan.rows_read, scan.xmin, scan.xmax, _y_exponent(scan)
     while True:
         passes += 1
         offset, scale = _basis.domain_map(lo, hi)
-        blocks, stats, pieces = engine.reduce(_Plan(ncols, offset, scale, labeller), as_text, total)
-        if stats.rows_used and (stats.xmin, stats.xmax) != (lo, hi):
-            # the statistics covered rows that were dropped: redo with the exact map
-            lo, hi = stats.xmin, stats.xmax
+        blocks, stats, pieces = engine.reduce(_Plan(ncols, offset, scale, labeller, y_exp), as_text, total)
+        if stats.rows_used and ((stats.xmin, stats.xmax) != (lo, hi) or _y_exponent(stats) != y_exp):
+            # the statistics covered rows that were dropped, or y needs another scale: redo with the exact ones
+            lo, hi, y_exp = stats.xmin, stats.xmax, _y_exponent(stats)
             if hi > lo:
                 continue
         break
-    return blocks, stats, {"offset": offset, "scale": scale, "passes": passes, "pieces": pieces}
+    return blocks, stats, {"offset": offset, "scale": scale, "y_exp": y_exp, "passes": passes, "pieces": pieces}
+
+
+def _y_exponent(stats: _Stats) -> int:
+    """The power of two the in-memory sweep divides these rows' y by (``pow2_exponent`` of max |y|)."""
+    return pow2_exponent(np.array([stats.ymin, stats.ymax])) if stats.rows_used else 0
 
 
 # ----------------------------------------------------------------------------
@@ -563,135 +519,3 @@ class _NumpyPasses:
 
 def _run_numpy(src, x, y, ncols, labeller, chunk_rows, progress):
     return _run_passes(_NumpyPasses(src, x, y, chunk_rows, progress), src, x, y, ncols, labeller)
-
-
-# ----------------------------------------------------------------------------
-# the dask engine: one task per Parquet row group or CSV byte range
-
-
-def _dask_client(scheduler):
-    try:
-        import distributed
-    except ImportError:
-        raise FitError('The dask engine needs dask and distributed; install them with pip install ".[dask]".') from None
-    if scheduler is None:
-        # Workers are threads of this process and talk to the scheduler in memory
-        # (inproc://); the only sockets are the small HTTP status servers, which
-        # distributed always starts: bind them to loopback on free ports, or they
-        # would take 0.0.0.0 and port 8787.
-        cluster = distributed.LocalCluster(
-            n_workers=2,
-            threads_per_worker=1,
-            processes=False,
-            dashboard_address="127.0.0.1:0",
-            worker_dashboard_address="127.0.0.1:0",
-        )
-        client = distributed.Client(cluster, set_as_default=False)
-        return client, [client, cluster]
-    if isinstance(scheduler, distributed.Client):
-        return scheduler, []
-    if isinstance(scheduler, str):
-        try:
-            client = distributed.Client(scheduler, set_as_default=False, timeout=_CONNECT_TIMEOUT)
-        except (OSError, TimeoutError) as exc:
-            raise FitError(
-                f"Cannot reach the dask scheduler at {scheduler} ({first_line(exc)}); check the address."
-            ) from None
-        return client, [client]
-    raise FitError(
-        f"The scheduler must be an address such as tcp://host:8786 or a distributed.Client, not {scheduler!r}."
-    )
-
-
-def _dask_scan_task(kind, path, part, x, y, names, as_text):
-    try:
-        xa, ya, invalid = read_piece(kind, path, part, x, y, names, as_text)
-    except NeedsText:
-        return "text"
-    s = _Stats()
-    _scan_chunk(xa, ya, invalid, s)
-    return s
-
-
-def _dask_reduce_task(kind, path, part, start, x, y, names, as_text, plan):
-    xa, ya, invalid = read_piece(kind, path, part, x, y, names, as_text)
-    blocks: dict = {}
-    stats = _Stats()
-    _reduce_chunk(xa, ya, int(start), invalid, plan, blocks, stats)
-    return blocks, stats
-
-
-def _dask_pieces(src: FileSource) -> list[tuple]:
-    """(path, part, rows or None) per task: Parquet row groups, or CSV byte ranges."""
-    if src.kind != "parquet":
-        return [(src.paths[0], r, None) for r in csv_ranges(src, _DASK_CSV_BLOCK)]
-    import pyarrow.parquet as pq
-
-    pieces = []
-    for p in src.paths:
-        md = pq.ParquetFile(p).metadata
-        pieces += [(p, g, md.row_group(g).num_rows) for g in range(md.num_row_groups)]
-    return pieces
-
-
-@dataclass
-class _DaskPasses:
-    client: object
-    src: FileSource
-    x: str
-    y: str
-    pieces: list
-    progress: Progress | None
-
-    def __post_init__(self):
-        self.counts = [n for _, _, n in self.pieces]  # rows per piece, known after a scan
-
-    def _submit(self, fn, *args):
-        return self.client.submit(fn, *args, pure=False)
-
-    def scan(self, as_text: bool) -> _Stats | None:
-        args = (self.x, self.y, self.src.names, as_text)
-        futs = [self._submit(_dask_scan_task, self.src.kind, p, part, *args) for p, part, _ in self.pieces]
-        scans = self.client.gather(futs)
-        if any(isinstance(s, str) for s in scans):
-            return None
-        scan = _Stats()
-        for s in scans:
-            scan.merge(s)
-        self.counts = [s.rows_read for s in scans]
-        return scan
-
-    def reduce(self, plan: _Plan, as_text: bool, total):
-        import distributed
-
-        starts = np.concatenate([[0], np.cumsum(self.counts)[:-1]]).astype(np.int64)
-        kind, x, y, names = self.src.kind, self.x, self.y, self.src.names
-        futs = [
-            self._submit(_dask_reduce_task, kind, p, part, int(s0), x, y, names, as_text, plan)
-            for (p, part, _), s0 in zip(self.pieces, starts, strict=False)
-        ]
-        blocks: dict = {}
-        stats = _Stats()
-        for fut in distributed.as_completed(futs, loop=self.client.loop):
-            b, s = fut.result()
-            _merge_blocks(blocks, b)
-            stats.merge(s)
-            if self.progress is not None:
-                self.progress(stats.rows_read, total)
-        return blocks, stats, len(self.pieces)
-
-
-def _run_dask(src, x, y, ncols, labeller, scheduler, progress):
-    client, to_close = _dask_client(scheduler)
-    try:
-        engine = _DaskPasses(client, src, x, y, _dask_pieces(src), progress)
-        return _run_passes(engine, src, x, y, ncols, labeller)
-    except DegreescopeError:
-        raise
-    except Exception as exc:  # a worker or scheduler failure: one sentence, with its first line
-        raise FitError(
-            f"The dask computation failed ({first_line(exc)}); check the cluster and the source path."
-        ) from None
-    finally:
-        for obj in to_close:
-            obj.close()

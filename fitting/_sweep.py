@@ -61,9 +61,13 @@ __all__ = [
     "block_factor",
     "normalise_degrees",
     "cap_degrees",
+    "check_holdout_sizes",
     "holdout_fraction",
     "kfold_labels",
+    "kfold_deal",
     "shuffle_holdout_labels",
+    "fold_labels",
+    "holdout_mask",
     "MAX_DEGREE",
     "MAX_SEED",
 ]
@@ -276,11 +280,7 @@ def _holdout_partition(x, holdout, *, ordered, repeats, seed):
     n = x.size
     frac = check_holdout(holdout)
     n_test = int(math.ceil(frac * n))
-    if n_test < 1 or n - n_test < 2:
-        raise FitError(
-            f"A {frac:.0%} holdout of {n} rows leaves {n - n_test} for training and {n_test} for testing; "
-            "use a different fraction or more data."
-        )
+    check_holdout_sizes(frac, n, n - n_test, n_test)
     one = [Split(test=(1,), train=(0,))]
     if ordered:
         labels = np.zeros(n, dtype=np.int64)
@@ -292,6 +292,15 @@ def _holdout_partition(x, holdout, *, ordered, repeats, seed):
     parts = [(labels, one) for labels in shuffle_holdout_labels(n, n_test, repeats=repeats, seed=seed)]
     scheme = f"{frac:.0%} random holdout (seed {seed}" + (f", {repeats} repeats)" if repeats > 1 else ")")
     return parts, scheme
+
+
+def check_holdout_sizes(frac: float, n: int, n_train: int, n_test: int) -> None:
+    """Raise FitError when a holdout leaves no test row or fewer than 2 training rows (shared with streaming)."""
+    if n_test < 1 or n_train < 2:
+        raise FitError(
+            f"A {frac:.0%} holdout of {n} rows leaves {n_train} for training and {n_test} for testing; "
+            "use a different fraction or more data."
+        )
 
 
 def _kfold_partition(n: int, folds, *, repeats, seed):
@@ -312,17 +321,22 @@ def kfold_labels(n: int, k: int, *, repeats: int = 1, seed: int = 0) -> list[np.
     scikit-learn is not imported, so the command line starts fast.
     """
     rng = np.random.RandomState(seed)
+    return [kfold_deal(rng, n, k) for _ in range(int(repeats))]
+
+
+def kfold_deal(rng: np.random.RandomState, n: int, k: int) -> np.ndarray:
+    """One shuffle of ``kfold_labels``: a fold label per item, sizes n // k (+1 for the first n % k folds).
+
+    ``rng.shuffle`` of 0 .. n - 1, then fold j takes the next run of positions, as KFold does.
+    Verdict stability deals its units with it, so its first redraw is the verdict's own folds.
+    """
     sizes = np.full(k, n // k, dtype=np.int64)
     sizes[: n % k] += 1
-    fold_of_position = np.repeat(np.arange(k, dtype=np.int64), sizes)
-    out = []
-    for _ in range(int(repeats)):
-        order = np.arange(n)
-        rng.shuffle(order)
-        labels = np.empty(n, dtype=np.int64)
-        labels[order] = fold_of_position
-        out.append(labels)
-    return out
+    order = np.arange(n)
+    rng.shuffle(order)
+    labels = np.empty(n, dtype=np.int64)
+    labels[order] = np.repeat(np.arange(k, dtype=np.int64), sizes)
+    return labels
 
 
 def shuffle_holdout_labels(n: int, n_test: int, *, repeats: int = 1, seed: int = 0) -> list[np.ndarray]:
@@ -339,6 +353,47 @@ def shuffle_holdout_labels(n: int, n_test: int, *, repeats: int = 1, seed: int =
         labels[rng.permutation(n)[:n_test]] = 1
         out.append(labels)
     return out
+
+
+# the streaming sweep's folds: a splitmix64 hash of the global row index and the seed (see ``_stream``)
+_GAMMA = np.uint64(0x9E3779B97F4A7C15)
+_M1 = np.uint64(0xBF58476D1CE4E5B9)
+_M2 = np.uint64(0x94D049BB133111EB)
+
+
+def _row_hash(row_index: np.ndarray, seed: int) -> np.ndarray:
+    """splitmix64 output number i + 1 for the generator state ``seed``, vectorised (uint64)."""
+    idx = np.asarray(row_index)
+    if idx.dtype.kind not in "iu":
+        raise FitError("Row indices must be whole numbers.")
+    if idx.dtype.kind == "i" and idx.size and int(idx.min()) < 0:
+        raise FitError("Row indices must be 0 or more.")
+    z = idx.astype(np.uint64) + np.uint64(1)
+    with np.errstate(over="ignore"):
+        z *= _GAMMA
+        z += np.uint64(int(seed) & 0xFFFFFFFFFFFFFFFF)
+        z ^= z >> np.uint64(30)
+        z *= _M1
+        z ^= z >> np.uint64(27)
+        z *= _M2
+        z ^= z >> np.uint64(31)
+    return z
+
+
+def fold_labels(row_index: np.ndarray, k: int, seed: int) -> np.ndarray:
+    """Fold label 0 .. k-1 (int64) of each global row index: the splitmix64 hash of the index and seed, mod k.
+
+    Deterministic: the same index and seed always give the same label,
+    whatever the chunking. Each fold gets n/k rows in expectation.
+    """
+    k = check_folds(k, None)  # any number of rows: the hash does not count them
+    return (_row_hash(row_index, seed) % np.uint64(k)).astype(np.int64)
+
+
+def holdout_mask(row_index: np.ndarray, fraction: float, seed: int) -> np.ndarray:
+    """True for the rows held out for testing: hash (top 53 bits, as a fraction) below ``fraction``."""
+    u = (_row_hash(row_index, seed) >> np.uint64(11)).astype(np.float64) * (1.0 / 9007199254740992.0)
+    return u < float(fraction)
 
 
 def _label_partition(n: int, folds):
@@ -509,19 +564,25 @@ def sweep_from_blocks(
     display_domain: tuple[float, float] | None = None,
     test_mask: np.ndarray | None = None,
     y_exp: int = 0,
+    diagnostics: bool = True,
 ) -> DegreeSweep:
     """Everything after the rows have been reduced to Blocks (shared with the streaming path).
 
     ``partitions`` is a list of (blocks: dict label -> Block, splits: list[Split]).
     When the blocks hold y / 2**y_exp (``y_range`` in the same units), every reported
     error is multiplied back by 2**y_exp.
+
+    ``diagnostics=False`` computes only what the recommendation needs (train and test
+    errors, the one-standard-error rule, where overfitting sets in): the full-data factor,
+    AIC and BIC, condition numbers, the display fit and its oscillation and band checks are
+    skipped. Their fields are then NaN (``aic``, ``bic``, ``condition_numbers``) or empty
+    (no display fit, so ``curve`` and ``band`` raise); ``aic_degree`` and ``bic_degree``
+    fall back to the recommendation. The default computes everything.
     """
     sc = _score_splits(partitions, degs, ncols, y_exp)
-    full = Block.merge(partitions[0][0].values())
-    disp = display_block if display_block is not None else full
     dlo, dhi = display_domain or domain
     geo = dict(offset=offset, scale=scale, display_domain=(dlo, dhi), y_range=y_range)
-    diag = _full_data_diagnostics(full, disp, degs, ncols, geo, sc["failed"], sc["n_train_min"], y_exp)
+    diag = _diagnose(partitions[0][0], display_block, degs, ncols, geo, sc, y_exp, diagnostics)
     rec = _recommend(degs, sc, scheme, single_split_rule)
     deg_notes = diag["notes"]
     overfit, over_from = _overfitting(degs, sc, rec, deg_notes)
@@ -544,7 +605,7 @@ def sweep_from_blocks(
         overfitting_from=over_from,
         scheme=scheme,
         n_splits=sc["nspl"],
-        rows_used=full.n,
+        rows_used=diag["rows_used"],
         n_train_min=int(sc["n_train_min"] or 0),
         warnings=tuple(notes or []),
         degree_warnings={d: tuple(v) for d, v in deg_notes.items() if v},
@@ -554,8 +615,8 @@ def sweep_from_blocks(
         offset=offset,
         scale=scale,
         display_coefficients=diag["disp_coef"],
-        display_r=disp.r,
-        display_n=disp.n,
+        display_r=diag["disp_r"],
+        display_n=diag["disp_n"],
         display_domain=(dlo, dhi),
         y_exp=y_exp,
     )
@@ -632,20 +693,38 @@ def _train_split(train: Block, degs: list[int], ncols: int, j: int, failed: dict
     rt = train.r
     rinv = _triangular_inverse(rt[:ncols, :ncols])
     dg = np.abs(np.diag(rt))[:ncols]
+    # smallest and largest |R_ii| of every leading block, and the squared residual column, once per split
+    dg_lo, dg_hi = np.minimum.accumulate(dg), np.maximum.accumulate(dg)
+    sq = rt[:, ncols] ** 2
     coefs = np.zeros((ncols + 1, len(degs)))
     coefs[ncols] = 1.0
     tss = _tss(train)
     for i, d in enumerate(degs):
         p = d + 1
-        if dg[:p].min() <= 1e3 * max(train.n, p) * eps * dg[:p].max():
+        if dg_lo[d] <= 1e3 * max(train.n, p) * eps * dg_hi[d]:
             failed.setdefault(d, f"the training set of split {j + 1} is rank deficient at degree {d}")
             continue
         # the inverse of a leading block of a triangular matrix is the leading block of its inverse
         coefs[:p, i] = -(rinv[:p, :p] @ rt[:p, ncols])
-        rss = float(np.sum(rt[p:, ncols] ** 2))
+        rss = float(np.add.reduce(sq[p:]))
         tr_rmse[i, j] = math.sqrt(max(rss, 0.0) / train.wsum)
         tr_r2[i, j] = 1.0 - rss / tss if tss > 0 else np.nan
     return coefs
+
+
+def _diagnose(blocks, display_block, degs, ncols, geometry, sc, y_exp, diagnostics: bool) -> dict[str, Any]:
+    """The full-data diagnostics, the display factor and the rows used; only the rows used when skipped."""
+    if not diagnostics:
+        nan = np.full(len(degs), np.nan)
+        rows = sum(b.n for b in blocks.values())
+        notes: dict[int, list[str]] = {d: [] for d in degs}
+        return dict(
+            aic=nan, bic=nan.copy(), conds=nan.copy(), notes=notes, disp_coef={}, rows_used=rows, disp_r=None, disp_n=0
+        )
+    full = Block.merge(blocks.values())
+    disp = display_block if display_block is not None else full
+    diag = _full_data_diagnostics(full, disp, degs, ncols, geometry, sc["failed"], sc["n_train_min"], y_exp)
+    return dict(diag, rows_used=full.n, disp_r=disp.r, disp_n=disp.n)
 
 
 def _full_data_diagnostics(full, disp, degs, ncols, geometry, failed, n_train_min, y_exp=0) -> dict[str, Any]:

@@ -35,15 +35,19 @@ __all__ = [
 ]
 
 
-def check_folds(folds: Any, n: int) -> int:
-    """The number of folds as an int from MIN_FOLDS to n (the rows); raise FitError otherwise."""
+def check_folds(folds: Any, n: int | None) -> int:
+    """The number of folds as an int from MIN_FOLDS to n (the rows); raise FitError otherwise.
+
+    ``n=None`` when the rows are not counted yet (a file read in chunks): only the lower bound
+    is checked, and the caller checks the upper one once the rows are known.
+    """
     try:
         k = int(folds)
     except (TypeError, ValueError):
         raise FitError(f"Folds must be a whole number or one label per row, not {folds!r}.") from None
     if k < MIN_FOLDS:
         raise FitError(f"Cross-validation needs at least {MIN_FOLDS} folds, not {k}; 5 or 10 are common.")
-    if k > n:
+    if n is not None and k > n:
         raise FitError(
             f"Cannot make {k} folds from {n} rows; use at most {n} folds (10 is common, or leave-one-out with {n})."
         )

@@ -1,4 +1,4 @@
-"""Checks of the dask.distributed engine of the streaming sweep (fitting._stream).
+"""Checks of the dask.distributed engine of the streaming sweep (fitting._dask).
 
 The reference is the numpy streaming engine (itself checked in test_stream.py
 against numpy.linalg.lstsq refits and the in-memory sweep): for the same source
@@ -29,7 +29,7 @@ if not HAVE_DASK:
 
 import psutil  # noqa: E402  (installed with distributed)
 
-import fitting._stream as stream  # noqa: E402
+import fitting._dask as dask_engine  # noqa: E402
 from fitting import sweep_source  # noqa: E402
 
 FIELDS = ("train_rmse_folds", "test_rmse_folds", "train_r2", "test_r2", "aic", "bic", "condition_numbers")
@@ -103,7 +103,7 @@ def test_dask_csv_byte_ranges_equal_numpy_engine(tmp_path, monkeypatch):
         fh.write("# Invented gauge log for tests.\n# Units: elapsed in hours, gauge in bar\nelapsed (h),gauge (bar)\n")
         for i, (a, b) in enumerate(zip(x, y, strict=False)):
             fh.write("oops,1\n" if i == 700 else f"{float(a)!r},{float(b)!r}\n")
-    monkeypatch.setattr(stream, "_DASK_CSV_BLOCK", 4000)  # many small byte ranges
+    monkeypatch.setattr(dask_engine, "_DASK_CSV_BLOCK", 4000)  # many small byte ranges
     ref, info_ref = sweep_source(path, folds=5, seed=8)
     res, info = sweep_source(path, folds=5, seed=8, engine="dask")
     assert info["partitions"] > 10
@@ -131,7 +131,7 @@ def test_dask_with_a_given_client(parts):
 
 
 def test_dask_unreachable_scheduler(parts, monkeypatch):
-    monkeypatch.setattr(stream, "_CONNECT_TIMEOUT", "1s")
+    monkeypatch.setattr(dask_engine, "_CONNECT_TIMEOUT", "1s")
     with pytest.raises(FitError) as exc:
         sweep_source(parts, engine="dask", scheduler="tcp://127.0.0.1:9")
     assert "\n" not in str(exc.value) and str(exc.value).endswith(".")

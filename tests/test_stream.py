@@ -388,3 +388,45 @@ def test_dask_engine_without_dask_says_how_to_install(tmp_path, monkeypatch):
         sweep_source(path, engine="dask")
     assert 'pip install ".[dask]"' in str(exc.value)
     one_sentence(exc)
+
+
+# ----------------------------------------------------------------------------
+# extreme magnitudes
+
+
+@pytest.mark.parametrize("factor", [1e200, 1e-200])
+def test_y_near_1e200_streams_as_in_ordinary_units(tmp_path, factor):
+    # Reference: the same streamed sweep in ordinary units, every error multiplied by the factor (R² and
+    # the verdict unchanged); and the in-memory sweep, which scales y by a power of two the same way.
+    # Without the scaling, squares of y near 1e200 overflow (and near 1e-200 underflow) in double precision.
+    x, y = invented(1200, seed=20)
+    plain, big = tmp_path / "plain.csv", tmp_path / "big.csv"
+    write_csv(plain, x, y)
+    write_csv(big, x, y * factor)
+    ref, _ = sweep_source(plain, degrees=range(0, 9), folds=6, seed=4, chunk_rows=300)
+    res, info = sweep_source(big, degrees=range(0, 9), folds=6, seed=4, chunk_rows=300)
+    assert info["passes"] == 2  # the scan found the y range: no extra pass
+    for name in ("train_rmse", "test_rmse", "test_rmse_se", "train_rmse_folds", "test_rmse_folds"):
+        np.testing.assert_allclose(getattr(res, name), getattr(ref, name) * factor, rtol=1e-12, err_msg=name)
+    for name in ("train_r2", "test_r2"):
+        np.testing.assert_allclose(getattr(res, name), getattr(ref, name), rtol=1e-12, atol=1e-12, err_msg=name)
+    # AIC and BIC shift by the same constant n ln(factor²) at every degree
+    np.testing.assert_allclose(np.diff(res.aic), np.diff(ref.aic), rtol=1e-9, atol=1e-6)
+    assert res.recommended_degree == ref.recommended_degree and res.overfitting_from == ref.overfitting_from
+    np.testing.assert_allclose(res.curve(3, x[:50]), ref.curve(3, x[:50]) * factor, rtol=1e-11)
+    mem = sweep_degrees(x, y * factor, degrees=range(0, 9), folds=fold_labels(np.arange(x.size), 6, 4))
+    assert_same_sweep(res, mem)
+
+
+def test_extreme_y_in_parquet_takes_a_second_pass(tmp_path):
+    # Parquet statistics give the x range only: a y near 1e200 is found in the first pass and redone scaled.
+    x, y = invented(900, seed=23)
+    path = tmp_path / "big.parquet"
+    pq.write_table(pa.table({"x": x, "y": y * 1e200}), path, row_group_size=300)
+    ref, info_big = sweep_source(path, degrees=range(0, 7), folds=5, seed=1)
+    assert info_big["passes"] == 2
+    plain = tmp_path / "plain.parquet"
+    pq.write_table(pa.table({"x": x, "y": y}), plain, row_group_size=300)
+    base, info = sweep_source(plain, degrees=range(0, 7), folds=5, seed=1)
+    np.testing.assert_allclose(ref.test_rmse_folds, base.test_rmse_folds * 1e200, rtol=1e-12)
+    assert ref.recommended_degree == base.recommended_degree and info["passes"] == 1

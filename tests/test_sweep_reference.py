@@ -331,3 +331,38 @@ def test_the_in_memory_sweep_does_not_import_scikit_learn():
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "False"
+
+
+def test_without_diagnostics_the_errors_and_the_verdict_are_unchanged():
+    # Reference: sweep_degrees itself (checked above against KFold refits); the same blocks with
+    # diagnostics=False must give identical errors and recommendation, and skip only the diagnostics.
+    from fitting import FitError
+    from fitting._basis import domain_map, to_window
+    from fitting._sweep import Split, block_factor, kfold_labels, sweep_from_blocks
+
+    x, y = _data(n=400, seed=3)
+    degs, k = list(range(0, 13)), 10
+    ref = sweep_degrees(x, y, degrees=degs, folds=k, repeats=2, seed=5)
+    offset, scale = domain_map(float(x.min()), float(x.max()))
+    t = to_window(x, offset, scale)
+    splits = [Split(test=(j,), train=tuple(o for o in range(k) if o != j)) for j in range(k)]
+    parts = [
+        ({j: block_factor(t[lab == j], y[lab == j], len(degs)) for j in range(k)}, splits)
+        for lab in kfold_labels(x.size, k, repeats=2, seed=5)
+    ]
+    common = dict(ncols=len(degs), offset=offset, scale=scale, domain=ref.domain, y_range=(y.min(), y.max()))
+    full = sweep_from_blocks(parts, degs, scheme=ref.scheme, **common)
+    lean = sweep_from_blocks(parts, degs, scheme=ref.scheme, diagnostics=False, **common)
+    for s in (full, lean):
+        np.testing.assert_array_equal(s.test_rmse_folds, ref.test_rmse_folds)
+        np.testing.assert_array_equal(s.train_rmse_folds, ref.train_rmse_folds)
+        assert (s.recommended_degree, s.overfitting_from, s.rows_used) == (
+            ref.recommended_degree,
+            ref.overfitting_from,
+            ref.rows_used,
+        )
+    np.testing.assert_array_equal(full.condition_numbers, ref.condition_numbers)
+    assert np.isnan(lean.condition_numbers).all() and np.isnan(lean.aic).all() and np.isnan(lean.bic).all()
+    assert lean.aic_degree == lean.bic_degree == lean.recommended_degree and lean.display_coefficients == {}
+    with pytest.raises(FitError, match="has no fit in this sweep"):
+        lean.curve(2, [0.0])
