@@ -323,3 +323,16 @@ def test_excluded_rows_need_the_rows_in_memory(capsys, monkeypatch):
     monkeypatch.setattr(sweep, "STREAM_ABOVE_BYTES", 1000)  # stands in for 64 MiB
     err = one_error(*cli(capsys, "sweep", ROOT / "sample_data" / "van_fuel.csv", "--exclude-rows", 9))
     assert "--exclude-rows" in err and "read in chunks" in err
+
+
+def test_stability_redraws_follow_the_rule_that_made_the_recommendation(capsys):
+    """The verdict's sweep: its own folds (the first redraw is the verdict's split, so one draw agrees with it);
+    a sweep asked for with --folds 5 --repeats 2: redraws of 5 folds, 2 repeats."""
+    d, _ = cli_json(capsys, "sweep", SENSOR, "--max-degree", 5, "--stability-draws", 1)
+    st = d["verdict_stability"]
+    assert (st["folds"], st["repeats"], st["held_out"]) == (10, 5, "rows")
+    assert st["modal_degree"] == d["recommended_degree"] and st["draws"] == 1
+    d, _ = cli_json(capsys, "sweep", SENSOR, "--max-degree", 5, "--folds", 5, "--repeats", 2, "--stability-draws", 3)
+    assert (d["verdict_stability"]["folds"], d["verdict_stability"]["repeats"]) == (5, 2)
+    d, _ = cli_json(capsys, "sweep", SENSOR, "--max-degree", 3, "--holdout", 0.25)
+    assert d["verdict_stability"] is None and "single holdout" in d["verdict_stability_reason"]

@@ -133,7 +133,7 @@ def _by_degree(ev, name: str, degrees: list[int]) -> list[float | None]:
 
 
 def for_sweep(x, y, degrees, recommended, *, weights=None, groups=None, draws=DEFAULT_STABILITY_DRAWS, seed=0,
-              folds=10, repeats="auto") -> dict[str, Any]:  # fmt: skip
+              folds=None, repeats="auto", replicates="auto") -> dict[str, Any]:  # fmt: skip
     """Per-degree lack of fit and added-term p-values, verdict stability and the evidence sentence."""
     import fitting as ev_mod
 
@@ -159,7 +159,7 @@ def for_sweep(x, y, degrees, recommended, *, weights=None, groups=None, draws=DE
         try:
             st = ev_mod.verdict_stability(
                 x, y, draws=draws, seed=seed, weights=weights, groups=groups, degrees=degrees, folds=folds,
-                repeats=repeats,
+                repeats=repeats, replicates=replicates,
             )  # fmt: skip
         except Exception as exc:  # noqa: BLE001 - a FitError from the engine: say why instead
             out["verdict_stability_reason"] = str(exc)

@@ -261,22 +261,23 @@ def _sweep_in_memory(args):
 
 
 def _sweep_evidence(args, rows, sweep, verdict: bool) -> dict:
-    """Lack of fit and added-term tests per degree, the evidence sentence and the verdict's stability."""
+    """Lack of fit and added-term tests per degree, the evidence sentence and the stability of the verdict.
+
+    The redraws follow the verdict's own folds and repeats on the verdict's sweep; on a sweep asked for with
+    ``--folds``/``--repeats`` they follow those (rows dealt to folds, or the groups); a single holdout has none.
+    """
     import numpy as np
 
-    draws = args.stability_draws
-    if args.holdout is not None:
-        draws = 0
     groups = rows.group if args.group else None
-    if groups is not None:
-        units = np.unique(np.asarray(groups).astype(str)).size
-    else:
-        levels = np.unique(rows.x).size
-        units = levels if levels < rows.x.size else rows.x.size
-    folds = DEFAULT_FOLDS if verdict or args.folds is None else args.folds
+    split: dict = {"folds": None, "repeats": "auto", "replicates": "auto"}
+    if not verdict:
+        units = np.unique(np.asarray(groups).astype(str)).size if groups is not None else rows.x.size
+        folds = args.folds if args.folds is not None else DEFAULT_FOLDS
+        split = {"folds": min(folds, units), "repeats": args.repeats or 1, "replicates": False}
+    draws = 0 if args.holdout is not None else args.stability_draws
     out = _evidence.for_sweep(
         rows.x, rows.y, sweep.degrees, sweep.recommended_degree, weights=rows.weights, groups=groups, draws=draws,
-        seed=args.seed, folds=min(folds, units), repeats="auto" if verdict else (args.repeats or 1),
+        seed=args.seed, **split,
     )  # fmt: skip
     if args.holdout is not None and args.stability_draws:
         out["verdict_stability_reason"] = "redraws of the folds; this sweep used a single holdout"
