@@ -201,6 +201,23 @@ SCHEMA: dict[tuple[str, str], Kind] = {
 }
 
 
+# -- data panel: sheets, pasted tables, shared views ---------------------------------------------
+_VIEW_COLUMNS = Kind(
+    "a list of text or null",
+    lambda v: v is None or (isinstance(v, list) and all(i is None or isinstance(i, str) for i in v)),
+)
+SCHEMA.update(
+    {
+        (ids.SHEET, "value"): optional(TEXT),
+        (ids.PASTE_TEXT, "value"): optional(TEXT),
+        (ids.PASTE_BUTTON, "n_clicks"): optional(WHOLE),
+        (ids.VIEW_PENDING, "data"): record({"search": optional(TEXT), "file": optional(TEXT)}),
+        (ids.VIEW_COLUMNS, "data"): _VIEW_COLUMNS,
+        (ids.INTERVAL_LEVEL, "data"): optional(NUMBER),
+    }
+)
+
+
 def _json_type(v: Any) -> str:
     if v is None:
         return "null"

@@ -82,3 +82,20 @@ HOLDOUT_BOX = "holdout-box"
 FOLDS_BOX = "folds-box"
 UPLOAD_BOX = "upload-box"  # carries data-limit for assets/degreescope.js
 DEGREE_SETTLED = "degree-settled"  # dcc.Store: the degree once it has rested (clientside debounce)
+
+# -- data panel: sheets, pasted tables, shared views ------------------------------------------
+SHEET = "sheet"  # the workbook's sheet picker
+SHEET_BOX = "sheet-box"
+PASTE_TEXT = "paste-text"  # cells pasted from a spreadsheet, or a text table
+PASTE_BUTTON = "paste-button"
+VIEW_NOTICE = "view-notice"  # "load FILE to restore this view", columns of a shared view not in the file
+COLUMN_NOTE = "column-note"  # which columns were picked and why
+VIEW_PENDING = "view-pending"  # dcc.Store: the shared view waiting for its file ({"search", "file"})
+VIEW_COLUMNS = "view-columns"  # dcc.Store: [dataset, x, y, weights, group] the degree was last set for
+INTERVAL_LEVEL = "interval-level"  # dcc.Store: the interval level in per cent the URL keeps (a level control writes it)
+URL_WANTED = "url-wanted"  # dcc.Store: the address the page should show (put in place by replaceState)
+URL_APPLIED = "url-applied"  # dcc.Store: output of that clientside step (never set)
+
+# -- model card, predictions and downloads (app/panels/model.py, predict.py, downloads.py) --
+MODEL_HANDOVER = "model-handover"  # the card's one line: the model is fitted on every usable row
+PREDICT_NOTE = "predict-note"

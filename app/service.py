@@ -42,7 +42,8 @@ import fitting
 from fitting import MAX_DEGREE, MAX_SEED, DegreeSweep, FitError, PolynomialFit, Selection, Table
 
 from . import text
-from .store import DatasetStore, StoredDataset
+from .handover import file_sha256
+from .store import DatasetGone, DatasetStore, StoredDataset
 
 __all__ = [
     "Columns",
@@ -55,6 +56,8 @@ __all__ = [
     "ModelView",
     "PredictionView",
     "SAMPLE_PATH",
+    "PASTED_NAME",
+    "DIGEST_CHARS",
     "MAX_PREDICT_VALUES",
     "MAX_PREDICT_CHARS",
     "clamp_degree",
@@ -71,6 +74,8 @@ MAX_PREDICT_CHARS = 40 * MAX_PREDICT_VALUES  # checked before the text is split
 HOLDOUT_RANGE = (10, 50)  # per cent
 FOLDS_RANGE = (2, 50)
 SPLIT_MODES = ("holdout", "ordered", "kfold")
+DIGEST_CHARS = 12  # hex digits of a file's SHA-256 that name its content in a shared URL
+PASTED_NAME = "pasted table"
 
 
 # ----------------------------------------------------------------------------
@@ -176,6 +181,12 @@ class DatasetInfo:
     units: dict[str, str]
     rows: int
     decimal: str = "."
+    digest: str = ""  # the first DIGEST_CHARS hex digits of the file's SHA-256
+    sheet: str | None = None  # the sheet read from a workbook
+    sheet_names: tuple[str, ...] = ()
+    choice_note: str | None = None  # why the default columns were chosen (a counter passed over)
+    head_lines: tuple[str, ...] = ()  # the report's first lines: how the file was read, its columns
+    notes: tuple[str, ...] = ()  # the report's notes (dates, formulas, ...), without the rows left out
 
     def to_store(self) -> dict:
         """The record held in the page's ``dcc.Store``: ids, names and the file's decimal mark, no data."""
@@ -187,6 +198,9 @@ class DatasetInfo:
             "x": self.default_x,
             "y": self.default_y,
             "decimal": self.decimal,
+            "sha": self.digest,
+            "sheet": self.sheet,
+            "sheets": list(self.sheet_names),
         }
 
 
@@ -462,21 +476,65 @@ class FitService:
         return self._splits.misses + self._steady.misses
 
     # -- datasets -------------------------------------------------------------
-    def load_bytes(self, data: bytes, name: str | None) -> DatasetInfo:
-        """Read an uploaded file's bytes (within the upload limit) and store the table."""
-        table = fitting.read_table(data, max_bytes=self.upload_limit_bytes, name=name)
-        return self._put(table, name or "upload")
+    def load_bytes(self, data: bytes, name: str | None, *, sheet: str | int | None = None) -> DatasetInfo:
+        """Read an uploaded file's bytes (within the upload limit) and store the table.
+
+        ``name`` carries the suffix that marks a workbook (.xlsx, .xlsm, .xls, .ods); ``sheet``
+        picks one of its sheets (default: the engine's choice). A workbook's bytes stay with the
+        table so that another sheet can be read (``load_sheet``).
+        """
+        table = fitting.read_table(data, max_bytes=self.upload_limit_bytes, name=name, sheet=sheet)
+        raw = data if table.sheet_names else None
+        return self._put(table, name or "upload", sha256=file_sha256(data), raw=raw)
 
     def load_upload(self, contents: str, filename: str | None) -> DatasetInfo:
         """Decode a ``dcc.Upload`` data URL (size checked first) and store its table."""
         data = decode_upload(contents, self.upload_limit_bytes)
         return self.load_bytes(data, filename)
 
+    def load_text(self, pasted: str | None, name: str = PASTED_NAME) -> DatasetInfo:
+        """A table pasted as text (cells copied from a spreadsheet, or any text table), read like an upload."""
+        if not isinstance(pasted, str) or not pasted.strip():
+            raise fitting.IntakeError("Paste a table first: cells copied from a spreadsheet, or a text table.")
+        data = pasted.encode("utf-8")
+        if len(data) > self.upload_limit_bytes:
+            raise fitting.FileTooLargeError(
+                _too_large(len(data), self.upload_limit_bytes).replace("The file is", "The pasted table is", 1)
+            )
+        return self.load_bytes(data, name)
+
+    def load_sheet(self, ds_id: str, sheet: str) -> DatasetInfo:
+        """Another sheet of a stored workbook, read from the bytes kept with it, stored as a new dataset."""
+        stored = self.store.get(ds_id)
+        raw = stored.meta.get("raw")
+        if raw is None:
+            raise fitting.IntakeError(f"{text.echo(stored.name)} is not a workbook, so it has no other sheets.")
+        if sheet not in stored.table.sheet_names:
+            raise fitting.IntakeError(f"{text.echo(stored.name)} has no sheet named {text.echo(sheet)}.")
+        return self.load_bytes(raw, stored.name, sheet=sheet)
+
     def load_path(self, path: str | Path) -> DatasetInfo:
         """Read a file on this machine (any size) and store its table."""
         path = Path(path)
         table = fitting.read_table(path, max_bytes=max(self.upload_limit_bytes, path.stat().st_size), name=path.name)
-        return self._put(table, path.name)
+        return self._put(table, path.name, sha256=file_sha256(path))
+
+    def find_loaded(self, name: str, digest: str | None = None, sheet: str | None = None) -> DatasetInfo | None:
+        """The most recent dataset this browser session may see that was read from a file called ``name``.
+
+        With ``digest``, one whose content matches is preferred, and with ``sheet`` that sheet of it;
+        a name match is taken otherwise.
+        """
+        found = [(k, d) for k, d in self.store.visible_items() if d.name == name]
+        same = [p for p in found if digest and p[1].meta.get("digest") == digest]
+        exact = [p for p in same if sheet and p[1].table.sheet == sheet]
+        pick = (exact or same or found or [None])[-1]
+        if pick is None:
+            return None
+        try:
+            return self.info(pick[0])
+        except DatasetGone:  # evicted since the list was taken
+            return None
 
     def sample_id(self) -> str:
         """Id of the start-up dataset, reloading it if it was evicted."""
@@ -485,10 +543,11 @@ class FitService:
                 self._sample_id = self.load_path(self.sample_path).id
             return self._sample_id
 
-    def _put(self, table: Table, name: str) -> DatasetInfo:
-        # room for the table and for the column selections made from it
-        nbytes = 2 * int(table.frame.memory_usage(deep=True).sum())
-        stored = StoredDataset(name=name, table=table, nbytes=nbytes)
+    def _put(self, table: Table, name: str, *, sha256: str = "", raw: bytes | None = None) -> DatasetInfo:
+        # room for the table and for the column selections made from it (and a workbook's bytes)
+        nbytes = 2 * int(table.frame.memory_usage(deep=True).sum()) + (len(raw) if raw else 0)
+        meta = {"sha256": sha256, "digest": sha256[:DIGEST_CHARS], "raw": raw}
+        stored = StoredDataset(name=name, table=table, nbytes=nbytes, meta=meta)
         key = self.store.put(stored)
         info = self._describe(key, stored)
         stored.meta["info"] = info
@@ -496,7 +555,7 @@ class FitService:
 
     def _describe(self, key: str, stored: StoredDataset) -> DatasetInfo:
         rep = stored.table.report
-        dx, dy = stored.table.default_xy()  # intake guarantees two numeric columns
+        dx, dy, note = stored.table.default_choice()  # intake guarantees two numeric columns
         return DatasetInfo(
             id=key,
             name=stored.name,
@@ -508,6 +567,12 @@ class FitService:
             units={str(k): str(v) for k, v in (rep.units or {}).items() if v},
             rows=int(rep.rows_read),
             decimal=str(rep.decimal or "."),
+            digest=str(stored.meta.get("digest", "")),
+            sheet=rep.sheet,
+            sheet_names=tuple(str(n) for n in rep.sheet_names),
+            choice_note=note,
+            head_lines=tuple(rep.summary_lines()[:2]),
+            notes=tuple(rep.notes),
         )
 
     def info(self, ds_id: str) -> DatasetInfo:
@@ -620,7 +685,7 @@ class FitService:
             train_rmse=float(sweep.train_rmse[i]),
             test_rmse=float(sweep.test_rmse[i]),
             test_rmse_se=_se(sweep, i),
-            train_r2=float(sweep.train_r2[i]),
+            train_r2=_drawn_r2(sweep, d) if sweep.test_mask is None else float(sweep.train_r2[i]),
             test_r2=float(sweep.test_r2[i]),
             warnings=tuple(view.steady.warnings_for(d)),
         )
@@ -693,6 +758,13 @@ class FitService:
 def _se(sweep: DegreeSweep, i: int) -> float:
     """The test RMSE's standard error across splits; NaN for a single holdout."""
     return float(sweep.test_rmse_se[i]) if sweep.n_splits > 1 else float("nan")
+
+
+def _drawn_r2(sweep: DegreeSweep, d: int) -> float:
+    """R² of the drawn fit (every row, folds): 1 − RSS_d / RSS_0 from its R factor, as the precise fit reports it."""
+    r = sweep.display_r
+    rss, tss = (float(np.sum(r[p:, -1] ** 2)) for p in (d + 1, 1))
+    return 1.0 - rss / tss if tss > 0 else float("nan")
 
 
 def _chart_rows(n: int) -> np.ndarray:

@@ -105,6 +105,11 @@ class DatasetStore:
         with self._lock:
             return self._owners.get(key)
 
+    def visible_items(self) -> list[tuple[str, StoredDataset]]:
+        """(id, dataset) of every dataset the session being answered may see, least recently used first."""
+        with self._lock:
+            return [(k, d) for k, d in self._items.items() if self._visible(k)]
+
     def _visible(self, key: object) -> bool:
         if not isinstance(key, str) or key not in self._items:
             return False

@@ -181,3 +181,238 @@ def predictions_shown(shown: int, total: int) -> str:
 
 def sample_note(shown: int, rows: int) -> str:
     return f"showing a random sample of {fmt_count(shown)} of {fmt_count(rows)} points; fits use every row"
+
+
+# ----------------------------------------------------------------------------
+# data panel: rows left out, the column choice, shared views, sheets and pasted tables
+
+LINES_SHOWN = 12  # line numbers listed per reason before the rest is counted
+
+
+def lines_list(lines, count: int) -> str:
+    """ "line 9" / "lines 9, 14, 27, 28" / "lines 9, 14, … and 40 more (52 in all)"."""
+    lines = [int(v) for v in lines]
+    if not lines:
+        return f"{fmt_count(count)} rows (line numbers not recorded)"
+    shown = lines[:LINES_SHOWN]
+    head = ("line " if count == 1 else "lines ") + ", ".join(str(v) for v in shown)
+    rest = int(count) - len(shown)
+    return head if rest <= 0 else f"{head} and {fmt_count(rest)} more ({fmt_count(count)} in all)"
+
+
+def dropped_line(reason: str, count: int, lines) -> str:
+    """One intake-report line for one reason rows were left out, with their line numbers."""
+    rows = "1 row" if count == 1 else f"{fmt_count(count)} rows"
+    return f"{reason[:1].upper()}{reason[1:]} ({rows}): {lines_list(lines, count)}."
+
+
+def rows_left_out_head(x: str, y: str, total: int) -> str:
+    if not total:
+        return f"Every row has usable values of x {echo(x)} and y {echo(y)}."
+    rows = "1 row" if total == 1 else f"{fmt_count(total)} rows"
+    return f"With x {echo(x)} and y {echo(y)}, {rows} are left out:"
+
+
+def column_choice(x: str, y: str, engine_note: str | None) -> str:
+    """Why the default columns were picked."""
+    if engine_note:
+        return engine_note
+    return (
+        f"Picked x {echo(x)} and y {echo(y)}: the first two numeric columns, none of them a small-integer "
+        "counter. Choose others above if that is wrong."
+    )
+
+
+def restore_pending(file: str) -> str:
+    return (
+        f"This link shows a view of {echo(file)}: load {echo(file)} to restore this view. Its columns, split, "
+        "degree and bands are kept until then; meanwhile the page shows another file."
+    )
+
+
+def view_columns_missing(file: str, missing: list[str]) -> str:
+    names = ", ".join(echo(m) for m in missing)
+    return (
+        f"The shared view of {echo(file)} uses columns this file does not have ({names}); "
+        "the default columns are shown instead."
+    )
+
+
+def view_content_differs(file: str) -> str:
+    return (
+        f"This {echo(file)} differs in content from the file the link was made with; "
+        "the view's settings are applied, but the numbers may differ."
+    )
+
+
+def view_restored(file: str) -> str:
+    return f"Restored the shared view of {echo(file)}."
+
+
+def sheet_loaded(file: str, sheet: str, rows: int) -> str:
+    return f"Read sheet {echo(sheet)} of {echo(file)}: {fmt_count(rows)} rows."
+
+
+def _is_degree_cap(note: str) -> bool:
+    return note.startswith("Degrees ") and "were left out" in note
+
+
+def labelled_sweep_notes(view: SplitView) -> list[str]:
+    """The sweeps' notes, each labelled with the sweep it belongs to, each once.
+
+    A note on degrees left out for too few distinct x values is shown once, for the charts'
+    split (the slider's range follows it), not also for the recommendation's sweep.
+    """
+    chart = f"Charts' split, {view.split_label}"
+    verdict = f"Recommendation's sweep, {view.steady_label}"
+    notes = [f"{chart}: {w}" for w in view.sweep.warnings]
+    capped = any(_is_degree_cap(w) for w in view.sweep.warnings)
+    for w in view.steady.warnings:
+        if w in view.sweep.warnings or (capped and _is_degree_cap(w)):
+            continue
+        notes.append(f"{verdict}: {w}")
+    if view.rows_dropped:
+        notes.append(f"{fmt_count(view.rows_dropped)} rows were left out with these columns (see the intake report).")
+    return notes
+
+
+# model card, predictions and downloads (the hand-over model; app/panels/model.py,
+# predict.py, downloads.py and app/views_model.py)
+
+R2_DIGITS = 5  # R² on the model card, as in the chart captions: one figure, one value
+RMSE_DIGITS = 4  # held-out RMSE on the model card, as in the chart captions
+
+
+def handover_line(model: ModelView) -> str:
+    """The model card's one line on which rows the model a user takes away was fitted on."""
+    return (
+        f"This model is fitted on every usable row ({fmt_count(model.fit.n)} rows), whatever split the charts "
+        "show; the split only judges the degree. The card, the model JSON, the predictions CSV and the report "
+        "all describe this fit."
+    )
+
+
+def rmse_label(weighted: bool) -> str:
+    """The RMSE row's name: a weighted RMSE says so."""
+    return "weighted RMSE" if weighted else "RMSE"
+
+
+def plain_rmse_label(y_unit: str | None) -> str:
+    """The unweighted RMSE row of a weighted fit, in y's units."""
+    return f"RMSE, unweighted (in {y_unit})" if y_unit else "RMSE, unweighted (in y's units)"
+
+
+def stats_head(mode: str) -> tuple[str, str, str]:
+    """The header of the model card's numbers: the hand-over fit, then the split's held-out rows."""
+    return ("", "fit on every row", f"held out ({held_out_name(mode)})")
+
+
+def weighting_note(fit) -> str:
+    """What a weighted fit's RMSE and intervals mean ("" for an unweighted fit)."""
+    if not fit.weighted:
+        return ""
+    base = (
+        "Weighted fit: the weighted RMSE is √(Σ w·residual² / Σ w), which counts the rows with large weights "
+        "more; the unweighted RMSE counts every row the same."
+    )
+    if fit.weighting not in ("column", "none"):
+        return f"{base} Intervals at a new x use the weight the rule {fit.weighting} gives there."
+    return base
+
+
+def handover_note(model: ModelView) -> str:
+    """The sentence under the model card: basis, the t quantile, the valid x range, and the fit's own warnings."""
+    f = model.fit
+    note = (
+        f"Power basis in the original units; 95 % intervals use Student's t with {f.dof} degrees of freedom "
+        f"(t = {fmt_number(model.t_quantile, 5)}). Valid x range: {fmt_number(f.domain[0], 6)} to "
+        f"{fmt_number(f.domain[1], 6)}."
+    )
+    return " ".join(part for part in [note, weighting_note(f), *f.warnings] if part)
+
+
+def handover_residual_caption(model: ModelView) -> tuple[str, ...]:
+    """The residual chart's caption, in short lines (a narrow chart must not cut them)."""
+    return (
+        f"Residual = y − the hand-over fit (every usable row, {fmt_count(model.fit.n)} rows)"
+        + ("; a sample of the points is shown." if model.residual_sampled else "."),
+        "A bend or a funnel in the points: the degree misses something.",
+    )
+
+
+def curve_label(degree: int, mode: str) -> str:
+    """The fit chart's curve: the split's own fit, named for the rows it used."""
+    if mode == "kfold":
+        return f"degree {degree} fit (every row)"
+    return f"degree {degree} fit on the training rows"
+
+
+def outside_flag_short(outside: bool) -> str:
+    """The prediction table's flag column: short, so the table fits its panel."""
+    return "outside: extrapolation" if outside else ""
+
+
+def prediction_head(x_name: str, x_unit: str | None, y_name: str, y_unit: str | None) -> tuple[str, ...]:
+    """The prediction table's header: the column names with their units once."""
+    from ._format import label_with_unit
+
+    return (
+        label_with_unit(x_name, x_unit),
+        f"predicted {label_with_unit(y_name, y_unit)}",
+        "95 % confidence",
+        "95 % prediction",
+        "range",
+    )
+
+
+def interval_weight_note(fit) -> str:
+    """Which weight a weighted model's prediction intervals assume at a new x ("" when unweighted)."""
+    if fit.weighting == "column":
+        return next((w for w in fit.warnings if "weight of 1 at a new x" in w), "")
+    if fit.weighted:
+        return f"Prediction intervals use the weight the rule {fit.weighting} gives at each x."
+    return ""
+
+
+PREDICT_NOTE = (
+    "Predictions use the hand-over model (every usable row). Confidence: where the mean of y lies; "
+    "prediction: where one new reading lies."
+)
+DOWNLOADS_NOTE = (
+    "Downloads hold the model fitted on every usable row at the degree on screen; the split on screen only "
+    "judged the degree."
+)
+
+# Words for every mark on the charts (figures.py draws them; these are their legend entries and key).
+LEGEND_TRAINING_POINTS = "training rows"
+LEGEND_TEST_POINTS = "held-out rows (test)"
+LEGEND_TRAINING_RMSE = "training RMSE"
+LEGEND_VERDICT = "verdict: cross-validated test RMSE"
+LEGEND_CURRENT = "degree on screen"
+LEGEND_RECOMMENDED = "recommended"
+LEGEND_EXTRAPOLATION = "extrapolation"
+
+
+def legend_test_rmse(with_se: bool) -> str:
+    return "held-out test RMSE" + (" ± SE" if with_se else "")
+
+
+def error_chart_key(view: SplitView) -> str:
+    """One plain sentence for the error chart's marks, including the shaded column and the dashed line."""
+    return (
+        "Blue: how far the fit misses its own training rows. Amber: how far it misses the held-out rows "
+        f"({view.split_label}). Dashed grey ({LEGEND_VERDICT!r}): the test error of {view.steady_label}, "
+        "which the recommendation rests on. The red ring and the pale red column mark the degree on screen; "
+        "the green star marks the recommended degree."
+    )
+
+
+def fit_chart_key(mode: str) -> str:
+    """One plain sentence for the fit chart's marks."""
+    curve = "every row" if mode == "kfold" else "the training rows only"
+    return (
+        f"Blue circles: training rows; amber diamonds: held-out rows. The dark curve is fitted on {curve}; the "
+        "blue band is its 95 % confidence band, the grey one its 95 % prediction band; shaded edges lie "
+        "beyond the x range of those rows (extrapolation). The model card and the downloads use the fit on "
+        "every row."
+    )

@@ -1,16 +1,20 @@
 """Take it to the meeting: the HTML report, the model JSON, the predictions CSV and the chart images.
 
-Downloads use the degree, columns and split on screen. Chart images are made in the browser
-(``assets/degreescope.js``), with no server help.
+Downloads hold the hand-over model: fitted on every usable row of the columns on screen, at
+the degree on screen (``app/views_model.py``); the split on screen only judged the degree.
+The model JSON carries the same provenance as the command line's (``app.handover.provenance``).
+Chart images are made in the browser (``assets/degreescope.js``), with no server help.
 """
 
 from __future__ import annotations
+
+import unicodedata
 
 from dash import Input, Output, State, ctx, dcc, html, no_update
 
 from fitting import DegreescopeError
 
-from .. import exports, figures, ids
+from .. import exports, figures, ids, text, views_model
 from ..service import FitService
 from ._common import PageConfig, notice_on_error, panel
 from .predict import typed_x
@@ -40,7 +44,7 @@ def layout(cfg: PageConfig) -> html.Section:
     )
     return panel(
         "Take it to the meeting",
-        html.P("Downloads use the degree, columns and split on screen.", className="muted small"),
+        html.P(text.DOWNLOADS_NOTE, className="muted small"),
         buttons,
         html.P(
             "The CSV holds the x values typed on the left, or every data row when none are typed. "
@@ -53,11 +57,15 @@ def layout(cfg: PageConfig) -> html.Section:
 
 
 def slug(name: str) -> str:
-    """A file-name piece from a column name: lower case, letters and digits, dashes, at most 40 characters."""
-    out = "".join(c if c.isalnum() else "-" for c in str(name).lower())
+    """A file-name piece from a column name: letters (any script, case kept) and digits, dashes, at most 40.
+
+    >>> slug("R (kΩ)"), slug("Temperatur / °C"), slug("ΔT"), slug("***")
+    ('R-kΩ', 'Temperatur-C', 'ΔT', 'fit')
+    """
+    out = "".join(c if c.isalnum() else "-" for c in unicodedata.normalize("NFC", str(name)))
     while "--" in out:
         out = out.replace("--", "-")
-    return out.strip("-")[:40] or "fit"
+    return out.strip("-")[:40].strip("-") or "fit"
 
 
 OUTPUT = dict(download=Output(ids.DOWNLOAD, "data"), notice=Output(ids.EXPORT_NOTICE, "children"))
@@ -74,12 +82,13 @@ STATE = dict(
 )
 
 
-def _predictions_csv(service: FitService, key: dict, degree, text) -> str:
+def _predictions_csv(service: FitService, key: dict, degree, text_in) -> str:
     ds, cols, split = from_key(key)
-    xs = typed_x(text, key)
+    xs = typed_x(text_in, key)
     if xs.size:
-        return exports.predictions_csv(service.predict(ds, cols, split, degree, xs), x_name=cols.x, y_name=cols.y)
-    sel, p = service.row_predictions(ds, cols, split, degree)
+        p = views_model.handover_predict(service, ds, cols, split, degree, xs)
+        return exports.predictions_csv(p, x_name=cols.x, y_name=cols.y)
+    sel, p = views_model.handover_row_predictions(service, ds, cols, split, degree)
     return exports.predictions_csv(p, x_name=cols.x, y_name=cols.y, y_observed=sel.y)
 
 
@@ -87,22 +96,23 @@ def _report(service: FitService, key: dict, degree, bands) -> str:
     ds, cols, split = from_key(key)
     view = service.split_view(ds, cols, split)
     dv = service.degree_view(ds, cols, split, degree)
-    model = service.model_view(ds, cols, split, degree)
+    model = views_model.handover_model(service, ds, cols, split, degree)
     fit_fig, err_fig = figures.fit_figure(view, dv, bands), figures.error_figure(view, dv)
     return exports.html_report(service.info(ds), view, dv, model, fit_fig, err_fig)
 
 
-def on_export(service: FitService, which: str, key, degree, bands, text) -> dict:
-    """The file for one download button: "model", "csv" or "report"."""
+def on_export(service: FitService, which: str, key, degree, bands, text_in) -> dict:
+    """The file for one download button: "model", "csv" or "report"; each holds the every-row fit."""
     if not key or degree is None:
         raise DegreescopeError("Nothing to export yet; wait for the charts.")
     ds, cols, split = from_key(key)
-    model = service.model_view(ds, cols, split, degree)
+    model = views_model.handover_model(service, ds, cols, split, degree)
     stem = f"degreescope-{slug(cols.y)}-degree{model.fit.degree}"
     if which == "model":
-        data = {"content": exports.model_json(model.fit), "filename": f"{stem}.model.json", "type": "application/json"}
+        content = exports.model_json(model.fit, views_model.handover_provenance(service, ds, cols))
+        data = {"content": content, "filename": f"{stem}.model.json", "type": "application/json"}
     elif which == "csv":
-        content = _predictions_csv(service, key, degree, text)
+        content = _predictions_csv(service, key, degree, text_in)
         data = {"content": content, "filename": f"{stem}.predictions.csv", "type": "text/csv"}
     else:
         data = {"content": _report(service, key, degree, bands), "filename": f"{stem}.report.html", "type": "text/html"}

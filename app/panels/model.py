@@ -1,13 +1,16 @@
-"""The model card: training and test numbers, the equation, the coefficients and the residuals.
+"""The model card: the hand-over model's numbers, the equation, the coefficients and the residuals.
 
+The model on the card is fitted on every usable row (``app/views_model.py``), whatever split the
+charts show; the split's held-out numbers sit beside it, formatted as in the chart captions.
 It follows the settled degree (off the chart's critical path) and writes the shareable URL.
 """
 
 from __future__ import annotations
 
+import numpy as np
 from dash import Input, Output, dcc, html, no_update
 
-from .. import components, figures, ids, text
+from .. import components, figures, ids, text, views_model
 from ..service import FitService
 from ._common import PageConfig, notice_on_error, panel
 from .settings import from_key, url_query
@@ -27,9 +30,10 @@ def layout(cfg: PageConfig) -> html.Div:
     )
     card = panel(
         "Model card",
-        html.Div(id=ids.STATS),
+        html.P(id=ids.MODEL_HANDOVER, className="handover-line"),
+        html.Div(id=ids.STATS, className="table-wrap"),
         equation,
-        html.Div(id=ids.COEFFICIENTS, className="coef"),
+        html.Div(id=ids.COEFFICIENTS, className="coef table-wrap"),
         html.P(id=ids.MODEL_NOTE, className="muted small"),
         class_name="model-card",
     )
@@ -43,7 +47,8 @@ def layout(cfg: PageConfig) -> html.Div:
 
 
 OUTPUT = dict(
-    stats=Output(ids.STATS, "children"),
+    stats=Output(ids.STATS, "children"),  # first: load tests and scripts find the callback by it
+    handover=Output(ids.MODEL_HANDOVER, "children"),
     equation=Output(ids.EQUATION, "children"),
     coefficients=Output(ids.COEFFICIENTS, "children"),
     residual_figure=Output(ids.RESIDUAL_CHART, "figure"),
@@ -54,20 +59,31 @@ INPUTS = dict(key=Input(ids.SPLIT_KEY, "data"), degree=Input(ids.DEGREE_SETTLED,
 
 
 def on_model(service: FitService, key, degree) -> dict:
-    """The precise fit's tables, equation, residual chart and note, and the URL for these settings."""
+    """The hand-over fit's tables, equation, residual chart and note, and the URL for these settings."""
     if not key or degree is None:
         return {name: no_update for name in OUTPUT}
     ds, cols, split = from_key(key)
     view = service.split_view(ds, cols, split)
-    model = service.model_view(ds, cols, split, degree)
+    model = views_model.handover_model(service, ds, cols, split, degree)
+    y_scale = float(max(np.max(np.abs(v), initial=0.0) for v in (view.train_y, view.test_y)))
     return dict(
-        stats=components.stats_table(model),
+        handover=text.handover_line(model),
+        stats=components.model_stats_table(model, y_scale, split.mode),
         equation=model.equation,
-        coefficients=components.coefficient_table(model),
-        residual_figure=figures.residual_figure(view, model),
-        note=text.model_note(model),
+        coefficients=components.model_coefficient_table(model),
+        residual_figure=residual_figure(view, model),
+        note=text.handover_note(model),
         search=url_query(key, model.fit.degree),
     )
+
+
+def residual_figure(view, model):
+    """Residuals of the hand-over fit at the chart's points (one group: the fit used them all), captioned so."""
+    fig = figures.residual_figure(views_model.residual_view(view), model)
+    notes = fig.layout.annotations
+    if notes:
+        notes[0].text = figures.caption_text(text.handover_residual_caption(model))
+    return fig
 
 
 def register(app, service: FitService) -> None:

@@ -1,5 +1,8 @@
 """Try x values: predictions with 95 % confidence and prediction intervals at typed x values.
 
+Predictions come from the hand-over model (every usable row, ``app/views_model.py``), the model
+the downloads hold.
+
 Typed values follow the file's decimal mark (carried in the settings record): with a decimal
 comma, "250,5" is one value and semicolons or new lines separate values.
 """
@@ -9,8 +12,9 @@ from __future__ import annotations
 import numpy as np
 from dash import Input, Output, dcc, html
 
-from .. import components, ids
+from .. import components, ids, views_model
 from ..service import FitService, parse_x_values
+from ..text import PREDICT_NOTE, interval_weight_note, prediction_head
 from ._common import PageConfig, notice_on_error, panel
 from .settings import from_key
 
@@ -23,7 +27,8 @@ def layout(cfg: PageConfig) -> html.Section:
         "Try x values",
         html.Label("x values (commas, spaces or new lines)", htmlFor=ids.PREDICT_INPUT),
         dcc.Textarea(id=ids.PREDICT_INPUT, placeholder="e.g. 450, 900, 1500", className="predict-input"),
-        html.Div(id=ids.PREDICT_TABLE, className="predict-table"),
+        html.P(PREDICT_NOTE, id=ids.PREDICT_NOTE, className="muted small"),
+        html.Div(id=ids.PREDICT_TABLE, className="predict-table table-wrap"),
     )
 
 
@@ -46,7 +51,13 @@ def on_predict(service: FitService, text, key, degree) -> dict:
     if xs.size == 0 or not key or degree is None:
         return dict(table=html.P("Predictions appear here.", className="muted small"))
     ds, cols, split = from_key(key)
-    return dict(table=components.prediction_table(service.predict(ds, cols, split, degree, xs)))
+    sel = service.selection(ds, cols)
+    head = prediction_head(sel.x_name, sel.x_unit, sel.y_name, sel.y_unit)
+    fit = views_model.handover_model(service, ds, cols, split, degree).fit
+    p = views_model.handover_predict(service, ds, cols, split, degree, xs)
+    table = components.handover_prediction_table(p, head)
+    weight = interval_weight_note(fit)
+    return dict(table=html.Div([table, html.P(weight, className="muted small")]) if weight else table)
 
 
 def register(app, service: FitService) -> None:

@@ -1,4 +1,11 @@
-"""The settings the charts on screen were drawn for, as kept in the page's ``dcc.Store`` and in the URL."""
+"""The settings the charts on screen were drawn for, as kept in the page's ``dcc.Store`` and in the URL.
+
+A shared URL names the file besides the settings: ``file`` (its name), ``sha`` (the first 12
+hex digits of its SHA-256) and, for a workbook, ``sheet``; then the columns, the split, the
+degree, the bands shown (``bands``) and the interval level in per cent (``level``). A page
+opened on a URL whose file is not loaded keeps the settings pending until a file of that
+name is loaded (``app/panels/data.py``, ``on_dataset``).
+"""
 
 from __future__ import annotations
 
@@ -27,6 +34,9 @@ def split_key(dataset, x, y, weights, group, mode, holdout, folds, seed) -> dict
         "holdout": s.holdout,
         "folds": s.folds,
         "seed": s.seed,
+        "file": dataset.get("name"),
+        "sha": dataset.get("sha") or None,
+        "sheet": dataset.get("sheet") or None,
     }
 
 
@@ -43,7 +53,8 @@ def from_key(key: dict) -> tuple[str, Columns, SplitSettings]:
 
 def url_query(key: dict, degree) -> str:
     """The URL query that restores these settings and this degree."""
-    q = {"x": key["x"], "y": key["y"]}
+    q = {k: key[k] for k in ("file", "sha", "sheet") if key.get(k)}
+    q.update(x=key["x"], y=key["y"])
     if key.get("weights"):
         q["w"] = key["weights"]
     if key.get("group"):
@@ -62,3 +73,48 @@ def parse_query(search: str | None) -> dict:
         return {}
     raw = parse_qs(search.lstrip("?"), keep_blank_values=False)
     return {k: v[0] for k, v in raw.items() if v}
+
+
+BAND_NAMES = ("confidence", "prediction")
+DEFAULT_BANDS = ["confidence"]
+DEFAULT_LEVEL = 95
+LEVEL_RANGE = (50, 99.9)  # per cent
+
+
+def bands_from_query(q: dict) -> list[str] | None:
+    """The bands named in the URL ("confidence,prediction", or "none"); None when the URL names none."""
+    raw = q.get("bands")
+    if raw is None:
+        return None
+    return [b for b in BAND_NAMES if b in raw.split(",")]
+
+
+def level_from_query(q: dict) -> float:
+    """The interval level in per cent from the URL, DEFAULT_LEVEL when missing or outside LEVEL_RANGE."""
+    try:
+        v = float(q.get("level", DEFAULT_LEVEL))
+    except (TypeError, ValueError):
+        return DEFAULT_LEVEL
+    return v if LEVEL_RANGE[0] <= v <= LEVEL_RANGE[1] else DEFAULT_LEVEL
+
+
+def _level_text(level) -> str:
+    try:
+        v = float(level)
+    except (TypeError, ValueError):
+        return str(DEFAULT_LEVEL)
+    return f"{v:g}" if LEVEL_RANGE[0] <= v <= LEVEL_RANGE[1] else str(DEFAULT_LEVEL)
+
+
+def with_view_extras(search: str | None, bands, level) -> str:
+    """``search`` with the bands shown and the interval level set (the other parameters kept, in order)."""
+    q = parse_query(search)
+    q["bands"] = ",".join(b for b in BAND_NAMES if b in (bands or [])) or "none"
+    q["level"] = _level_text(DEFAULT_LEVEL if level is None else level)
+    return "?" + urlencode(q)
+
+
+def names_other_file(q: dict, dataset: dict | None) -> bool:
+    """True when the URL names a file (``file=``) other than the dataset's (by name)."""
+    file = q.get("file")
+    return bool(file) and (not dataset or dataset.get("name") != file)
