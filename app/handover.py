@@ -12,12 +12,18 @@ The model file is ``PolynomialFit.to_dict()`` (what ``degreescope predict`` and
         "rows_used", "rows_dropped": counts,
         "rows_left_out": {reason: {"count": n, "first_lines": [file line numbers]}},
         "fitted_on": one sentence on which rows the fit used,
-        "weighting": the named weighting rule, "column", or null (not stated),
         "degreescope_version": the version that wrote the file,
-        # only when they apply:
-        "rows_excluded": {"lines": [file line numbers left out on purpose], "reason": text},
-        "back_calculation": {"summary": {...}, "rule": text, "tolerance": %, "lowest_tolerance": %},
+        # only when rows were left out on purpose (the command line's --exclude-rows):
+        "rows_excluded": {"lines": [file line numbers], "reason": text or null},
     }
+
+The weighting rule is the fit's own ``weighting`` field. When the standards were
+back-calculated (``degreescope fit`` does so up to 2,000 rows), the file also holds
+
+    back_calculation_summary = {"summary": {...}, "rule": text, "tolerance": %, "lowest_tolerance": %}
+
+beside ``fitted_from`` (``model_document(..., back_calculation=...)``), so ``fitted_from``
+stays the same block whichever front end wrote the file.
 
 Non-finite numbers are written as null (strict JSON).
 
@@ -61,6 +67,7 @@ from ._atomic import neutralise_cell as _neutralise_text
 from ._format import term_name
 
 __all__ = [
+    "BACK_CALCULATION_KEY",
     "PROVENANCE_KEY",
     "csv_cell",
     "degreescope_version",
@@ -140,16 +147,13 @@ def provenance(
     rows_dropped: int = 0,
     dropped: Mapping[str, Any] | None = None,
     fitted_on: str | None = None,
-    weighting: str | None = None,
     excluded: Mapping[str, Any] | None = None,
-    back_calculation: Mapping[str, Any] | None = None,
 ) -> dict[str, Any]:
     """The ``fitted_from`` block of a model file.
 
     ``dropped`` maps each reason to a ``fitting.DropInfo`` (or its ``to_dict()``).
     ``fitted_on`` defaults to the sentence for a fit on every usable row (less the rows
-    ``excluded`` on purpose: ``{"lines": [...], "reason": text}``). ``back_calculation`` is
-    the summary of the back-calculated standards.
+    ``excluded`` on purpose: ``{"lines": [...], "reason": text}``).
     """
     if fitted_on is None:
         fitted_on = _fitted_on(file_name, int(rows_used), excluded)
@@ -164,13 +168,10 @@ def provenance(
         "rows_dropped": int(rows_dropped),
         "rows_left_out": _left_out(dropped),
         "fitted_on": fitted_on,
-        "weighting": weighting,
         "degreescope_version": degreescope_version(),
     }
     if excluded:
         block["rows_excluded"] = {"lines": [int(v) for v in excluded["lines"]], "reason": excluded.get("reason")}
-    if back_calculation:
-        block["back_calculation"] = dict(back_calculation)
     return block
 
 
@@ -186,21 +187,32 @@ def _fitted_on(file_name: str, rows_used: int, excluded: Mapping[str, Any] | Non
     )
 
 
-def model_document(fit, fitted_from: Mapping[str, Any] | None = None) -> dict[str, Any]:
+BACK_CALCULATION_KEY = "back_calculation_summary"
+
+
+def model_document(
+    fit, fitted_from: Mapping[str, Any] | None = None, *, back_calculation: Mapping[str, Any] | None = None
+) -> dict[str, Any]:
     """The model file as a JSON-safe dict: the fit's ``to_dict()`` and its provenance.
 
-    Without ``fitted_from`` the provenance holds the version only.
+    Without ``fitted_from`` the provenance holds the version only. ``back_calculation`` (the
+    summary, rule and tolerances of the back-calculated standards) is written beside it.
     """
     doc = fit.to_dict()
     block = dict(fitted_from) if fitted_from else {}
     block.setdefault("degreescope_version", degreescope_version())
     doc[PROVENANCE_KEY] = block
+    if back_calculation:
+        doc[BACK_CALCULATION_KEY] = dict(back_calculation)
     return json_safe(doc)
 
 
-def model_json(fit, fitted_from: Mapping[str, Any] | None = None) -> str:
+def model_json(
+    fit, fitted_from: Mapping[str, Any] | None = None, *, back_calculation: Mapping[str, Any] | None = None
+) -> str:
     """The model file's text: strict JSON (non-finite numbers as null), two-space indent, one final newline."""
-    return json.dumps(model_document(fit, fitted_from), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+    doc = model_document(fit, fitted_from, back_calculation=back_calculation)
+    return json.dumps(doc, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
 
 
 def plain_rmse(fit, x, y) -> float:

@@ -358,7 +358,7 @@ def test_fit_with_a_named_weighting_matches_statsmodels_wls(capsys, assay, tmp_p
     np.testing.assert_allclose(got["standard_errors"], res.bse, rtol=1e-7)
     assert got["weighting"] == "1/x2"
     doc = json.loads(model.read_text())
-    assert doc["weighting"] == "1/x2" and doc["fitted_from"]["weighting"] == "1/x2" and doc["version"] >= 2
+    assert doc["weighting"] == "1/x2" and doc["version"] >= 2
     # what read-back needs: residual SD, dof, covariance (power basis; and the fitted basis' inverse Gram), range
     assert doc["residual_sd"] == pytest.approx(math.sqrt(res.scale), rel=1e-8) and doc["dof"] == res.df_resid
     np.testing.assert_allclose(doc["covariance"], res.cov_params(), rtol=1e-6)
@@ -464,14 +464,16 @@ def test_fit_text_prints_back_calculation_and_comparison(capsys, assay):
     assert "Weighting comparison" in out and "Smallest sum:" in out
 
 
-def test_model_provenance_carries_the_back_calculation_summary(capsys, assay, tmp_path):
+def test_model_file_carries_the_back_calculation_summary(capsys, assay, tmp_path):
+    """Beside fitted_from (which stays the block both front ends write): summary, rule and tolerances."""
     path, _, _ = assay
     model = tmp_path / "m.json"
     got, _ = cli_json(capsys, "fit", path, "--degree", 2, "--save-model", model)
-    block = json.loads(model.read_text())["fitted_from"]
-    assert block["back_calculation"]["summary"] == got["back_calculation"]["summary"]
-    assert block["back_calculation"]["tolerance"] == 15.0 and "ICH M10" in block["back_calculation"]["rule"]
-    assert block["weighting"] == "none"
+    doc = json.loads(model.read_text())
+    summary = doc["back_calculation_summary"]
+    assert summary["summary"] == got["back_calculation"]["summary"]
+    assert summary["tolerance"] == 15.0 and "ICH M10" in summary["rule"]
+    assert doc["weighting"] == "none" and "back_calculation" not in doc["fitted_from"]
 
 
 def test_back_calculation_left_out_with_a_reason(capsys, assay, monkeypatch):

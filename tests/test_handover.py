@@ -202,3 +202,20 @@ def test_read_back_table_header_cells_and_neutralised_notes():
     assert got[2][10] == "'=matches two"
     plain = handover.read_back_csv(rows[:1], x_name="conc", y_name="area")
     assert next(csv.reader(io.StringIO(plain)))[0] == "area (reading)"
+
+
+def test_provenance_records_rows_left_out_on_purpose_and_the_summary_sits_beside_it():
+    """rows_excluded and the fitted_on sentence; the back-calculation summary beside fitted_from (strict JSON)."""
+    sel, fit = _sensor_fit(2)
+    plain = handover.provenance(file_name="f.csv", sha256=None, x="a", y="b", rows_used=10)
+    assert "rows_excluded" not in plain and plain["fitted_on"].startswith("every usable row")
+    prov = handover.provenance(
+        file_name="f.csv", sha256=None, x="a", y="b", rows_used=8, excluded={"lines": [12, 9], "reason": "spilt"}
+    )
+    assert prov["rows_excluded"] == {"lines": [12, 9], "reason": "spilt"}
+    assert "except 2 left out on purpose, lines 12, 9 (spilt)" in prov["fitted_on"]
+    summary = {"summary": {"accepted": True, "share_passing_percent": float("nan")}, "rule": "r", "tolerance": 15.0}
+    doc = json.loads(handover.model_json(fit, prov, back_calculation=summary))
+    assert doc[handover.PROVENANCE_KEY] == prov
+    assert doc[handover.BACK_CALCULATION_KEY]["summary"] == {"accepted": True, "share_passing_percent": None}
+    assert handover.BACK_CALCULATION_KEY not in handover.model_document(fit, prov)

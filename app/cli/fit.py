@@ -23,7 +23,7 @@ def add_parser(sub) -> None:
     p.set_defaults(func=run)
 
 
-def _provenance(source, sel, rows, fit, args, evaluated) -> dict:
+def _provenance(source, sel, rows) -> dict:
     from .. import handover
 
     return handover.provenance(
@@ -35,9 +35,7 @@ def _provenance(source, sel, rows, fit, args, evaluated) -> dict:
         rows_used=rows.rows_used,
         rows_dropped=sel.rows_dropped,
         dropped=sel.dropped,
-        weighting=_standards.rule_of(fit),
         excluded=rows.excluded,
-        back_calculation=_standards.summary_for_provenance(evaluated),
     )
 
 
@@ -56,14 +54,15 @@ def run(args) -> int:
     fit = _standards.fit(args, sel, rows)
     evaluated = _standards.evaluate(args, fit, rows.x, rows.y, rows.lines)
     evaluated.update(_evidence.for_fit(fit, rows, weights))
-    fitted_from = _provenance(source, sel, rows, fit, args, evaluated)
-    model = handover.model_document(fit, fitted_from)
+    fitted_from = _provenance(source, sel, rows)
+    summary = _standards.summary_for_provenance(evaluated)
+    model = handover.model_document(fit, fitted_from, back_calculation=summary)
     plain = handover.plain_rmse(fit, rows.x, rows.y)
     warnings_all = list(fit.warnings)
     saved = None
     if args.save_model:
         inputs = [] if source.is_stdin else [source.path]
-        text = handover.model_json(fit, fitted_from)
+        text = handover.model_json(fit, fitted_from, back_calculation=summary)
         saved = _output.write_output(args.save_model, lambda p: write_text_atomic(p, text), inputs=inputs)
     if args.json:
         _emit(args, source, table, sel, rows, fit, model, plain, saved, evaluated, warnings_all)
