@@ -200,6 +200,27 @@ SCHEMA: dict[tuple[str, str], Kind] = {
     },
 }
 
+# -- evidence panel (app/panels/evidence.py) ---------------------------------------------
+LEFT_OUT_ROWS = Kind(
+    "a list of rows left out ({line, reason})",
+    lambda v: (
+        isinstance(v, list)
+        and all(isinstance(r, dict) and _is_whole(r.get("line")) and isinstance(r.get("reason", ""), str) for r in v)
+    ),
+)
+SCHEMA.update(
+    {
+        (ids.EXCLUSIONS, "data"): record({"dataset": TEXT, "rows": LEFT_OUT_ROWS}, required=("dataset", "rows")),
+        (ids.LEAVE_OUT_LINE, "value"): optional(TEXT),
+        (ids.LEAVE_OUT_REASON, "value"): optional(TEXT),
+        (ids.LEAVE_OUT_BUTTON, "n_clicks"): optional(WHOLE),
+        (ids.RING_FIT, "data"): record({"meta": TEXT}),
+        (ids.RING_RESIDUAL, "data"): record({"meta": TEXT}),
+        (ids.FIT_CHART, "clickData"): record({"points": Kind("a list", lambda v: isinstance(v, list))}),
+        (ids.STABILITY_GO, "data"): optional(WHOLE),
+    }
+)
+
 
 # -- data panel: sheets, pasted tables, shared views ---------------------------------------------
 _VIEW_COLUMNS = Kind(

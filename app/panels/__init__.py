@@ -19,3 +19,8 @@ from ._common import INTERNAL_ERROR, PageConfig, degree_marks, panel, user_messa
 __all__ = ["INTERNAL_ERROR", "PANELS", "PageConfig", "degree_marks", "panel", "user_message"]
 
 PANELS = (data, split, caution, degree, charts, model, predict, downloads)
+
+# -- evidence panel (app/panels/evidence.py) ---------------------------------------------
+from . import evidence  # noqa: E402  (own block, added after the panels above)
+
+PANELS = (*PANELS, evidence)
