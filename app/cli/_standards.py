@@ -133,7 +133,7 @@ def evaluate(args, fit, x, y, lines) -> dict[str, Any]:
     )
     out["back_calculation"] = dict(back.to_dict(), tolerance=args.tolerance, lowest_tolerance=args.lowest_tolerance)
     out["weighting_comparison"] = fitting.compare_weightings(
-        x, y, fit.degree, through_origin=fit.through_origin
+        x, y, fit.degree, through_origin=fit.through_origin, lines=lines
     ).to_dict()
     return out
 
