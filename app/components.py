@@ -202,6 +202,114 @@ def handover_prediction_table(p: PredictionView, head: tuple[str, ...]) -> html.
 
 
 # ----------------------------------------------------------------------------
+# evidence panel (app/panels/evidence.py)
+
+
+def _p_cell(p) -> html.Td:
+    return _num_cell(text.p_value(p))
+
+
+def _evidence_row(view, d: int, shown: int | None, lof: bool, best: tuple[float, float]) -> html.Tr:
+    ev = view.evidence
+    i = ev.index(d)
+    rmse, se = view.cv_rmse(d)
+    cells = [html.Td(str(d)), _num_cell(fmt_pm(rmse, se))]
+    if lof:
+        df = ev.lack_of_fit_df[i]
+        df_text = fmt_number(None) if df != df else f"{int(df)}, {ev.pure_error_df}"
+        cells += [_num_cell(fmt_number(ev.lack_of_fit_f[i], 4)), _num_cell(df_text), _p_cell(ev.lack_of_fit_p[i])]
+    cells += [
+        _num_cell(fmt_number(ev.added_term_f[i], 4)),
+        _p_cell(ev.added_term_p[i]),
+        _num_cell(fmt_number(ev.aic[i] - best[0], 4, zero_below=1e-9)),
+        _num_cell(fmt_number(ev.bic[i] - best[1], 4, zero_below=1e-9)),
+    ]
+    marks = ("recommended" if d == view.recommended else "") + (" shown" if d == shown else "")
+    return html.Tr(cells, className=marks.strip())
+
+
+def _lowest(values) -> float:
+    finite = [float(v) for v in values if v == v and abs(v) != float("inf")]
+    return min(finite) if finite else float("nan")
+
+
+def evidence_table(view, shown: int | None) -> html.Table:
+    """One row per degree: the verdict's CV RMSE beside lack of fit, the added-term test, ΔAIC and ΔBIC."""
+    ev = view.evidence
+    lof = ev.has_lack_of_fit
+    degs = view.shown_degrees(shown)
+    at = [ev.index(d) for d in degs]
+    best = (_lowest(ev.aic[i] for i in at), _lowest(ev.bic[i] for i in at))
+    head = ("degree", "CV test RMSE ± SE")
+    if lof:
+        head += ("lack-of-fit F", "df (lack of fit, pure error)", "lack-of-fit p")
+    head += ("added-term F", "added-term p", "ΔAIC", "ΔBIC")
+    rows = [_evidence_row(view, d, shown, lof, best) for d in degs]
+    return _table(head, rows, "table evidence-table")
+
+
+def _flag_words(row, thresholds: dict) -> str:
+    return "; ".join(
+        f"{text.INFLUENCE_FLAG_NAMES.get(k, k)} > {fmt_number(thresholds[k]['value'], 3)}" for k in row.flags
+    )
+
+
+def influence_table(rows, thresholds: dict) -> html.Table:
+    """The flagged rows: line, x, y, leverage, studentized residual, Cook's distance, the flag and its thresholds."""
+    body = [
+        html.Tr(
+            [
+                _num_cell(str(r.line)),
+                _num_cell(fmt_number(r.x, 6)),
+                _num_cell(fmt_number(r.y, 6)),
+                _num_cell(fmt_number(r.leverage, 3)),
+                _num_cell(fmt_number(r.studentized, 3)),
+                _num_cell(fmt_number(r.cooks, 3)),
+                html.Td(text.INFLUENCE_VERDICT_WORDS.get(r.verdict, "review"), className="flag"),
+                html.Td(_flag_words(r, thresholds), className="small"),
+            ]
+        )
+        for r in rows
+    ]
+    head = ("line", "x", "y", "leverage", "studentized residual", "Cook's distance", "flag", "over the threshold")
+    return _table(head, body, "table influence-table")
+
+
+def threshold_list(thresholds: dict) -> html.Ul:
+    """Each influence threshold with its rule, its value here and its source."""
+    items = [
+        html.Li(text.threshold_line(text.INFLUENCE_FLAG_NAMES.get(k, k), t["rule"], t["value"], t["source"]))
+        for k, t in thresholds.items()
+    ]
+    return html.Ul(items, className="thresholds small muted")
+
+
+def left_out_list(exclusions, put_back_type: str) -> list:
+    """The rows left out, each with its reason and a button that puts it back."""
+    if not exclusions:
+        return [html.P(text.no_left_out(), className="muted small")]
+    items = [
+        html.Li(
+            [
+                html.Span(text.left_out_item(e.line, e.reason), className="left-out-text"),
+                html.Button(
+                    "Put back",
+                    id={"type": put_back_type, "line": e.line},
+                    n_clicks=0,
+                    className="btn btn-small",
+                    title=f"put line {e.line} back into the fit",
+                ),
+            ],
+            className="left-out-item",
+        )
+        for e in exclusions
+    ]
+    return [
+        html.Ul(items, className="left-out-list"),
+        html.P(text.left_out_note(len(exclusions)), className="muted small"),
+    ]
+
+
 # calibration: the read-back table, the standards table and the weighting comparison
 
 READBACK_ROWS_SHOWN = 50  # readings listed on the page; the chart marks the first few

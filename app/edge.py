@@ -107,6 +107,7 @@ WHOLE = Kind("a whole number", _is_whole)
 NUMBER = Kind("a finite number", _is_number)
 TEXT = Kind("text", lambda v: isinstance(v, str))
 TEXTS = Kind("a list of text", lambda v: isinstance(v, list) and all(isinstance(i, str) for i in v))
+WHOLES = Kind("a list of whole numbers", lambda v: isinstance(v, list) and all(_is_whole(i) for i in v))
 
 
 def optional(kind: Kind) -> Kind:
@@ -161,6 +162,7 @@ SPLIT_KEY_RECORD = record(
         "holdout": NUMBER,
         "folds": WHOLE,
         "seed": WHOLE,
+        "excluded": WHOLES,  # file lines the analyst left out
     },
     required=("dataset", "x", "y", "mode", "holdout", "folds", "seed"),
 )
@@ -206,6 +208,27 @@ SCHEMA: dict[tuple[str, str], Kind] = {
     (ids.TOLERANCE, "value"): optional(NUMBER),
     (ids.LOWEST_TOLERANCE, "value"): optional(NUMBER),
 }
+
+# -- evidence panel (app/panels/evidence.py) ---------------------------------------------
+LEFT_OUT_ROWS = Kind(
+    "a list of rows left out ({line, reason})",
+    lambda v: (
+        isinstance(v, list)
+        and all(isinstance(r, dict) and _is_whole(r.get("line")) and isinstance(r.get("reason", ""), str) for r in v)
+    ),
+)
+SCHEMA.update(
+    {
+        (ids.EXCLUSIONS, "data"): record({"dataset": TEXT, "rows": LEFT_OUT_ROWS}, required=("dataset", "rows")),
+        (ids.LEAVE_OUT_LINE, "value"): optional(TEXT),
+        (ids.LEAVE_OUT_REASON, "value"): optional(TEXT),
+        (ids.LEAVE_OUT_BUTTON, "n_clicks"): optional(WHOLE),
+        (ids.RING_FIT, "data"): record({"meta": TEXT}),
+        (ids.RING_RESIDUAL, "data"): record({"meta": TEXT}),
+        (ids.FIT_CHART, "clickData"): record({"points": Kind("a list", lambda v: isinstance(v, list))}),
+        (ids.STABILITY_GO, "data"): optional(WHOLE),
+    }
+)
 
 
 # -- data panel: sheets, pasted tables, shared views ---------------------------------------------

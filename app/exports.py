@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import html
 from datetime import datetime, timezone
-from typing import Any
+from typing import Any, Mapping, Sequence
 
 import plotly.graph_objects as go
 
@@ -143,6 +143,88 @@ def _warnings_html(warnings: list[str]) -> str:
     return f"<div class='warn'><strong>Warnings at this degree</strong><ul>{items}</ul></div>"
 
 
+def _as_dict(obj: Any) -> dict | None:
+    if obj is None:
+        return None
+    return obj.to_dict() if hasattr(obj, "to_dict") else dict(obj)
+
+
+def _yes_no(v: Any) -> str:
+    return "—" if v is None else ("yes" if v else "no")
+
+
+def _read_back_html(read_back: Any) -> str:
+    """The readings the user read back (``fitting.read_back`` or its ``to_dict()``): table, notes, caution."""
+    d = _as_dict(read_back)
+    if not d:
+        return ""
+    e = html.escape
+    rows = [
+        [_fmt(r["y"], 8), str(r.get("readings", 1)), _fmt(r.get("x"), 8), _fmt(r.get("x_lower"), 8),
+         _fmt(r.get("x_upper"), 8), _fmt(r.get("u_x"), 4), "; ".join(_fmt(v, 8) for v in r.get("roots", [])),
+         " ".join(r.get("warnings", []))]
+        for r in d["rows"]
+    ]  # fmt: skip
+    pct = f"{float(d.get('level', 0.95)) * 100:g} %"
+    notes = "".join(f"<li>{e(w)}</li>" for w in d.get("warnings", []))
+    head = ["reading y", "readings averaged", "x read back", f"{pct} lower", f"{pct} upper", "u(x)", "roots in range"]
+    return (
+        "<h2>Read-back of unknowns</h2>"
+        f"<p>Each reading read back through the curve (weighting {e(str(d.get('weighting', 'none')))}), with the "
+        f"{pct} calibration interval (NIST/SEMATECH e-Handbook, section 4.5.2.1) and the standard uncertainty of x "
+        "(EURACHEM/CITAC guide, appendix E.3). x is left empty where there is no single answer in the range.</p>"
+        + _table(head + ["notes"], rows)
+        + (f"<div class='warn'><ul>{notes}</ul></div>" if notes else "")
+        + f"<p class='caution'>{e(d.get('caution') or CAUTION_TEXT)}</p>"
+    )
+
+
+def _back_calculation_html(back: Any) -> str:
+    """The back-calculated standards (``fitting.back_calculate`` or its ``to_dict()``): table, summary, rule."""
+    d = _as_dict(back)
+    if not d:
+        return ""
+    e = html.escape
+    rows = [
+        ["" if r.get("line") is None else str(r["line"]), _fmt(r["x"], 8), _fmt(r["y"], 8), _fmt(r.get("x_back"), 8),
+         _fmt(r.get("relative_error_percent"), 4), _yes_no(r.get("within_tolerance")), r.get("note") or ""]
+        for r in d["rows"]
+    ]  # fmt: skip
+    s = d["summary"]
+    verdict = "accepted" if s["accepted"] else "not accepted"
+    summary = (
+        f"{s['standards_passing']} of {s['standards']} standards pass ({_fmt(s['share_passing_percent'], 4)} %), "
+        f"{s['levels_passing']} of {s['levels']} levels pass: {verdict} by the FDA 2018 / ICH M10 rule as set."
+    )
+    head = ["line", "x", "y", "x back", "relative error %", "within tolerance", "note"]
+    return (
+        f"<h2>Back-calculated standards</h2>{_table(head, rows)}<p><strong>{e(summary)}</strong></p>"
+        f"<p>Rule: {e(str(d.get('rule', '')))}</p>"
+    )
+
+
+def _left_out_rows(left_out: Any) -> list[list[str]]:
+    if isinstance(left_out, Mapping):
+        items = [dict(_as_dict(v) or {}, reason=k) for k, v in left_out.items()]
+    else:
+        items = [_as_dict(v) or {} for v in left_out]
+    rows = []
+    for it in items:
+        lines = it.get("lines") or it.get("first_lines") or ([it["line"]] if it.get("line") is not None else [])
+        count = int(it.get("count", len(lines)))
+        shown = ", ".join(str(int(v)) for v in lines[:50]) + (" …" if count > min(len(lines), 50) else "")
+        rows.append([str(it.get("reason") or "no reason given"), f"{count:,}", shown])
+    return rows
+
+
+def _left_out_html(left_out: Any) -> str:
+    """Rows left out, with reasons: a mapping reason → {count, lines or first_lines} (the intake's ``dropped``,
+    the model's ``rows_left_out``), or a list of {"lines" or "line", "reason"} (rows left out on purpose)."""
+    if not left_out:
+        return ""
+    return "<h2>Rows left out</h2>" + _table(["reason", "rows", "file lines"], _left_out_rows(left_out))
+
+
 def html_report(
     info: DatasetInfo,
     view: SplitView,
@@ -150,8 +232,18 @@ def html_report(
     model: ModelView,
     fit_fig: go.Figure,
     err_fig: go.Figure,
+    *,
+    read_back: Any = None,
+    back_calculation: Any = None,
+    left_out: Mapping[str, Any] | Sequence[Mapping[str, Any]] | None = None,
 ) -> str:
-    """A self-contained HTML page: both charts, the numbers, the coefficients, intake and settings."""
+    """A self-contained HTML page: both charts, the numbers, the coefficients, intake and settings.
+
+    Optional sections, shown when given: ``read_back`` (``fitting.read_back`` result or its
+    ``to_dict()``: the readings the user read back), ``back_calculation`` (``fitting.back_calculate``
+    result or its ``to_dict()``) and ``left_out`` (rows left out with their reasons; see
+    ``_left_out_html``).
+    """
     e = html.escape
     fit = model.fit
     fit_html = fit_fig.to_html(full_html=False, include_plotlyjs=True, config={"displaylogo": False})
@@ -183,9 +275,12 @@ def html_report(
 {_table(["term", "coefficient", "standard error", "95 % CI lower", "95 % CI upper", "unit"], coef_rows)}
 <p>95 % intervals use Student's t with {fit.dof} degrees of freedom (t = {_fmt(model.t_quantile, 5)}).</p>
 {_table(["statistic", "value"], stats_rows)}
+{_back_calculation_html(back_calculation)}
+{_read_back_html(read_back)}
 <h2>Data intake</h2>
 <ul>{"".join(f"<li>{e(line)}</li>" for line in info.report_lines)}</ul>
 <p>{view.rows_used:,} rows used; {view.rows_dropped:,} rows left out with these columns.</p>
+{_left_out_html(left_out)}
 <h2>Settings</h2>
 {_table(["setting", "value"], settings_rows(view, dv.degree))}
 </body></html>

@@ -101,6 +101,31 @@ MODEL_HANDOVER = "model-handover"  # the card's one line: the model is fitted on
 PREDICT_NOTE = "predict-note"
 
 
+# -- evidence panel (app/panels/evidence.py) ---------------------------------------------
+EVIDENCE_RULE = "evidence-rule"
+EVIDENCE_ROWS = "evidence-rows"
+EVIDENCE_SENTENCE = "evidence-sentence"
+EVIDENCE_TABLE = "evidence-table"
+EVIDENCE_NOTES = "evidence-notes"
+EVIDENCE_NOTICE = "evidence-notice"
+MANDEL = "mandel"
+STABILITY_CHART = "stability-chart"
+STABILITY_TEXT = "stability-text"
+INFLUENCE_TABLE = "influence-table"
+LEAVE_OUT_LINE = "leave-out-line"
+LEAVE_OUT_REASON = "leave-out-reason"
+LEAVE_OUT_BUTTON = "leave-out-button"
+LEAVE_OUT_NOTICE = "leave-out-notice"
+LEFT_OUT_LIST = "left-out-list"
+PUT_BACK = "put-back"  # pattern-matching type: {"type": PUT_BACK, "line": n}, one button per row left out
+EXCLUSIONS = "exclusions"  # dcc.Store: {"dataset": id, "rows": [{"line", "reason"}]}; carried by the URL ("out")
+RING_FIT = "ring-fit"  # dcc.Store: the ring trace last appended to the fit chart
+RING_RESIDUAL = "ring-residual"  # dcc.Store: the ring trace last appended to the residual chart
+RING_META = "evidence-ring"  # the meta tag of the ring traces
+STABILITY_STATUS = "stability-status"  # "computing…" while the redraws run
+STABILITY_GO = "stability-go"  # dcc.Store: a count written (clientside) once the settings have rested
+
+
 # -- calibration: the read-back panel and the standards panel (app/panels/readback.py, standards.py) --------
 READBACK_INPUT = "readback-input"
 READBACK_COUNT = "readback-count"  # k, readings averaged per unknown

@@ -44,6 +44,7 @@ from fitting import MAX_DEGREE, MAX_SEED, DegreeSweep, FitError, PolynomialFit, 
 from . import text
 from .handover import file_sha256
 from .store import DatasetGone, DatasetStore, StoredDataset
+from .views_evidence import exclude_lines
 
 __all__ = [
     "Columns",
@@ -90,6 +91,7 @@ class Columns:
     y: str
     weights: str | None = None
     group: str | None = None
+    excluded: tuple[int, ...] = ()  # file lines the analyst left out (app/views_evidence.py)
 
 
 class Refusal(NamedTuple):
@@ -595,6 +597,7 @@ class FitService:
 
         def make():
             sel = stored.table.select(cols.x, cols.y, weights=cols.weights, group=cols.group)
+            sel = exclude_lines(sel, cols.excluded)
             if sel.rows_used < 3:
                 raise FitError(f"Only {sel.rows_used} usable rows with these columns; a fit needs at least 3.")
             return sel

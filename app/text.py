@@ -418,6 +418,152 @@ def fit_chart_key(mode: str) -> str:
     )
 
 
+# evidence panel (app/panels/evidence.py): the evidence for a degree, influence, rows left out
+
+EVIDENCE_TITLE = "Evidence for the degree"
+LEFT_OUT_REASON = "left out by the analyst"
+COMPUTING = "computing… (200 redraws of the folds)"
+INFLUENCE_VERDICT_WORDS = {
+    "review": "review",
+    "outlier?": "large residual: review",
+    "influential?": "influential: review",
+}
+INFLUENCE_FLAG_NAMES = {
+    "leverage": "leverage",
+    "studentized_residual": "studentized residual",
+    "cooks_distance": "Cook's distance",
+    "dffits": "DFFITS",
+}
+LEAVE_OUT_HELP = (
+    "Leave a row out on purpose: type its line number in the file (or click a point on the fit chart), "
+    "say why, and press the button. The input file is never changed; each row can be put back."
+)
+
+
+def evidence_rule(rule: str, levels_held_out: bool) -> str:
+    """How the recommended degree is chosen, in the verdict sweep's own words."""
+    out = f"How the recommended degree is chosen: {rule}"
+    if levels_held_out:
+        out += (
+            " x has replicates, so the verdict's folds hold out whole x levels: the readings of one level are never "
+            "split between training and test."
+        )
+    return out
+
+
+def evidence_rows(rows_used: int, left_out: int, recommended: int) -> str:
+    """The rows the evidence and the verdict rest on."""
+    base = f"Recommended degree {recommended}, from {fmt_count(rows_used)} rows"
+    if left_out:
+        return base + f" ({fmt_count(left_out)} {'row' if left_out == 1 else 'rows'} {LEFT_OUT_REASON})."
+    return base + "."
+
+
+def lack_of_fit_absent(note: str | None) -> str:
+    """Why the table has no lack-of-fit columns."""
+    why = note or "no x level has replicates"
+    return f"No lack-of-fit test here: {why}. The added-term test and the information criteria remain."
+
+
+def criteria_note(criteria: str) -> str:
+    return (
+        f"ΔAIC and ΔBIC are differences from the lowest value in the table; lower is better ({criteria}). "
+        "Added-term p: the test of each degree's highest term against the degree below (extra sum of squares)."
+    )
+
+
+def p_value(p) -> str:
+    """A p-value: "< 0.001" below 0.001, else two significant digits; "—" when missing."""
+    s = fmt_number(p, 2)
+    return s if s == "—" or float(p) >= 0.001 else "< 0.001"
+
+
+def mandel_heading(shown: int) -> str:
+    return f"Mandel's fitting test (ISO 8466-1), shown because degree {shown} is on screen"
+
+
+def mandel_missing(problem: str) -> str:
+    return f"Mandel's test cannot be made: {problem}"
+
+
+def stability_axis() -> tuple[str, str]:
+    return "recommended degree", "share of redraws (%)"
+
+
+def stability_line(sentence: str, held_out: str, folds: int) -> str:
+    return f"The verdict gives {sentence} ({folds} folds holding out {held_out})."
+
+
+def influence_heading(degree: int, n: int) -> str:
+    return f"Single rows with a large say in the degree-{degree} fit of all {fmt_count(n)} rows in use"
+
+
+def no_flags(degree: int) -> str:
+    return f"No row is flagged at degree {degree}."
+
+
+def threshold_line(name: str, rule: str, value, source: str) -> str:
+    return f"{name}: {rule} = {fmt_number(value, 4)}. Source: {source}."
+
+
+def ring_hover() -> str:
+    return (
+        "line %{customdata[0]}<br>x %{customdata[1]:.6g}<br>y %{customdata[2]:.6g}<br>leverage %{customdata[3]:.3g}"
+        "<br>studentized residual %{customdata[4]:.3g}<br>Cook's distance %{customdata[5]:.3g}"
+        "<br>%{customdata[6]}<extra>flagged</extra>"
+    )
+
+
+def ring_name() -> str:
+    return "flagged rows (review)"
+
+
+def left_out_item(line: int, reason: str) -> str:
+    return f"line {line}: {reason}" if reason else f"line {line} (no reason given)"
+
+
+def no_left_out() -> str:
+    return "No row is left out: every usable row is fitted."
+
+
+def left_out_note(count: int) -> str:
+    return (
+        f"{fmt_count(count)} {'row is' if count == 1 else 'rows are'} {LEFT_OUT_REASON}; the evidence, influence and "
+        "verdict stability above use the remaining rows, and the input file is unchanged."
+    )
+
+
+def left_out_done(line: int) -> str:
+    return f"Line {line} is left out, with its reason on record."
+
+
+def put_back_done(line: int) -> str:
+    return f"Line {line} is back in."
+
+
+def not_a_line(value) -> str:
+    return f"{echo(value)} is not a line number; type the whole number of a data line in the file, such as 12."
+
+
+def not_a_row(line: int) -> str:
+    return (
+        f"Line {line} is not a data row fitted with these columns (a header, a comment, a row left out at intake, "
+        "or past the end of the file); type a line number from the influence table or the file."
+    )
+
+
+def already_left_out(line: int) -> str:
+    return f"Line {line} is already left out; put it back from the list below first."
+
+
+def too_many_left_out(limit: int) -> str:
+    return f"At most {limit} rows can be left out here; put some back or edit a copy of the file."
+
+
+def too_few_left(rows: int, needed: int) -> str:
+    return f"Only {rows} rows would remain; a fit needs at least {needed}. Put a row back first."
+
+
 # calibration: the read-back panel and the standards panel (app/panels/readback.py, standards.py)
 
 READBACK_TITLE = "From a reading to x"

@@ -54,7 +54,7 @@ from scipy.optimize import brentq
 
 from ._errors import FitError
 from ._polyfit import PolynomialFit, fit_polynomial, t_quantile
-from ._weighting import COLUMN_RULE, WEIGHTINGS, check_weighting, weight_at
+from ._weighting import COLUMN_RULE, WEIGHTINGS, check_weighting, weight_at, weights_for
 
 __all__ = [
     "CALIBRATION_CAUTION",
@@ -648,9 +648,10 @@ def _fit_with_rule(x, y, degree, rule, through_origin) -> PolynomialFit:
     return fit_polynomial(x, y, degree, weighting=rule, through_origin=through_origin)
 
 
-def _score(x, y, degree, rule, through_origin) -> tuple[float, str | None]:
+def _score(x, y, degree, rule, through_origin, lines=None) -> tuple[float, str | None]:
     """Σ|relative error %| of the back-calculated non-blank standards under one rule, or NaN and a reason."""
     try:
+        weights_for(rule, x, y, rows=lines)  # an undefined rule is refused naming the file's lines
         fit = _fit_with_rule(x, y, degree, rule, through_origin)
         back = back_calculate(fit, x, y)
     except FitError as exc:
@@ -665,7 +666,13 @@ def _score(x, y, degree, rule, through_origin) -> tuple[float, str | None]:
 
 
 def compare_weightings(
-    x, y, degree: int, *, rules=("none", "1/x", "1/x2", "1/y", "1/y2"), through_origin: bool = False
+    x,
+    y,
+    degree: int,
+    *,
+    rules=("none", "1/x", "1/x2", "1/y", "1/y2"),
+    through_origin: bool = False,
+    lines=None,
 ) -> WeightingComparison:
     """Fit each weighting rule, back-calculate the standards, and rank by Σ|relative error %|.
 
@@ -673,12 +680,13 @@ def compare_weightings(
     (journal details from memory): the smallest sum of absolute relative errors of the
     back-calculated standards wins. Blanks (x = 0) are left out of the sum. A rule undefined on
     these data (x = 0 under 1/x, y ≤ 0 under 1/y, ...) is skipped with the reason; so is a rule
-    under which some standard does not read back to one value.
+    under which some standard does not read back to one value. ``lines`` (the file's line
+    numbers of the rows) name the rows where a rule is undefined.
     """
     x = np.asarray(x, dtype=float).ravel()
     y = np.asarray(y, dtype=float).ravel()
     canon = [check_weighting(r) for r in rules]
-    scored = [(r, *_score(x, y, degree, r, through_origin)) for r in canon]
+    scored = [(r, *_score(x, y, degree, r, through_origin, lines)) for r in canon]
     order = sorted((s, i) for i, (_, s, _) in enumerate(scored) if math.isfinite(s))
     rank = {i: n + 1 for n, (_, i) in enumerate(order)}
     rows = tuple(

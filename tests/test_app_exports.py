@@ -5,6 +5,7 @@ from __future__ import annotations
 import csv
 import io
 import json
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -14,6 +15,7 @@ from app.service import SplitSettings
 from fitting import PolynomialFit
 
 KFOLD = SplitSettings(mode="kfold")
+SENSOR = Path(__file__).resolve().parent.parent / "sample_data" / "sensor_calibration.csv"
 
 
 @pytest.mark.parametrize("cell", ["=1+1", "+41", "-3", "@SUM(A1)", "\tx", "\rx", '=HYPERLINK("http://x")'])
@@ -110,3 +112,51 @@ def test_model_json_takes_the_same_provenance_as_the_command_line(sensor):
     doc = json.loads(exports.model_json(model.fit, prov))
     assert doc["fitted_from"] == prov
     assert exports.model_json(model.fit, prov) == handover.model_json(model.fit, prov)
+
+
+def _report(service, info, cols, degree=3, **sections):
+    split = SplitSettings()
+    view = service.split_view(info.id, cols, split)
+    dv = service.degree_view(info.id, cols, split, degree)
+    model = service.model_view(info.id, cols, split, degree)
+    page = exports.html_report(
+        info, view, dv, model, figures.fit_figure(view, dv), figures.error_figure(view, dv), **sections
+    )
+    return page, model
+
+
+def test_html_report_leaves_the_calibration_sections_out_unless_given(sensor):
+    page, _ = _report(*sensor)
+    for title in ("Read-back of unknowns", "Back-calculated standards", "Rows left out"):
+        assert title not in page
+
+
+def test_html_report_shows_read_back_back_calculation_and_left_out_rows(sensor):
+    """The sections show the engine's own results (fitting.read_back, back_calculate), numbers through _format."""
+    import fitting
+    from app._format import fmt_number
+
+    service, info, cols = sensor
+    _, model = _report(service, info, cols)
+    table = fitting.read_table(SENSOR)
+    sel = table.select(cols.x, cols.y)
+    rb = fitting.read_back(model.fit, [20.0, 500.0], readings=2)
+    back = fitting.back_calculate(model.fit, sel.x, sel.y, lines=sel.line_numbers)
+    left = {"on purpose: <bad> vial": {"count": 2, "lines": [9, 14]}}
+    page, _ = _report(service, info, cols, read_back=rb, back_calculation=back.to_dict(), left_out=left)
+    assert "Read-back of unknowns" in page and "4.5.2.1" in page
+    assert f"<td>{fmt_number(rb.rows[0].x, 8)}</td>" in page and f"<td>{fmt_number(rb.rows[0].u_x, 4)}</td>" in page
+    assert "lies outside the responses" in page  # 500 °C is beyond the standards
+    assert "Back-calculated standards" in page and "FDA 2018 / ICH M10" in page
+    first = back.rows[0]
+    assert f"<td>{first.line}</td><td>{fmt_number(first.x, 8)}</td>" in page
+    s = back.summary
+    assert f"{s.standards_passing} of {s.standards} standards pass" in page
+    assert "Rows left out" in page and "<td>9, 14</td>" in page
+    assert "on purpose: &lt;bad&gt; vial" in page and "<bad>" not in page  # escaped
+
+
+def test_html_report_takes_left_out_rows_as_a_list(sensor):
+    page, _ = _report(*sensor, left_out=[{"lines": [8], "reason": "blank well"}, {"line": 30, "reason": None}])
+    assert "<td>blank well</td><td>1</td><td>8</td>" in page
+    assert "<td>no reason given</td><td>1</td><td>30</td>" in page

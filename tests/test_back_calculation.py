@@ -22,6 +22,7 @@ import statsmodels.api as sm
 from scipy import stats
 from scipy.optimize import brentq
 
+import fitting
 from fitting import FitError, back_calculate, compare_weightings, fit_polynomial, read_back
 from fitting._weighting import WEIGHTINGS, weights_for
 
@@ -285,3 +286,12 @@ def test_unknown_rule_is_refused():
     x, y = _assay()
     with pytest.raises(FitError, match="Unknown weighting"):
         compare_weightings(x, y, 2, rules=("none", "1/z"))
+
+
+def test_a_rule_undefined_on_some_rows_names_their_file_lines():
+    # common practice, no source: a refusal names the rows the user can find in the file
+    x = np.array([0.0, 1.0, 2.0, 4.0, 8.0, 16.0])
+    y = 0.5 + 2.0 * x
+    comparison = fitting.compare_weightings(x, y, 1, lines=[12, 13, 14, 15, 16, 17])
+    note = {r.weighting: r.note for r in comparison.rows}["1/x"]
+    assert note.startswith("Skipped") and "line 12" in note

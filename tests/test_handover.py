@@ -180,3 +180,42 @@ def test_command_line_model_file_provenance(tmp_path):
     assert block["file"] == SENSOR.name and block["sha256"] == hashlib.sha256(SENSOR.read_bytes()).hexdigest()
     assert block["degreescope_version"] == handover.degreescope_version()
     assert block["fitted_on"] == "every usable row of sensor_calibration.csv (120 rows); none was held out"
+
+
+def test_read_back_table_header_cells_and_neutralised_notes():
+    """The read-back table parses back (csv) to the same numbers; missing x empty; notes neutralised (OWASP)."""
+    rows = [
+        {"line": 7, "y": 1.5, "readings": 3, "x": 2.25, "x_lower": 2.0, "x_upper": None, "u_x": 0.125,
+         "outside_range": False, "roots": [2.25], "warnings": ["The upper end is not bounded."]},
+        {"line": 8, "y": -4.0, "readings": 3, "x": None, "x_lower": None, "x_upper": None, "u_x": None,
+         "outside_range": False, "roots": [-1.5, 3.0], "warnings": ["=matches two"]},
+    ]  # fmt: skip
+    text = handover.read_back_csv(rows, x_name="conc", y_name="area", level=0.9, with_lines=True)
+    got = list(csv.reader(io.StringIO(text)))
+    assert got[0] == handover.read_back_header("conc", "area", 0.9, with_lines=True)
+    assert got[0][:4] == ["line", "area (reading)", "readings averaged", "conc (read back)"]
+    assert got[0][4:6] == ["calibration lower 90%", "calibration upper 90%"]
+    assert got[1][:8] == ["7", "1.5", "3", "2.25", "2.0", "", "0.125", "no"]
+    assert got[1][8:] == ["1", "x = 2.25", "The upper end is not bounded."]
+    assert got[2][3] == "" and got[2][8] == "2"
+    assert got[2][9] == "x = -1.5; x = 3.0"  # begins with a letter: nothing to neutralise
+    assert got[2][10] == "'=matches two"
+    plain = handover.read_back_csv(rows[:1], x_name="conc", y_name="area")
+    assert next(csv.reader(io.StringIO(plain)))[0] == "area (reading)"
+
+
+def test_provenance_records_rows_left_out_on_purpose_and_the_summary_sits_beside_it():
+    """rows_excluded and the fitted_on sentence; the back-calculation summary beside fitted_from (strict JSON)."""
+    sel, fit = _sensor_fit(2)
+    plain = handover.provenance(file_name="f.csv", sha256=None, x="a", y="b", rows_used=10)
+    assert "rows_excluded" not in plain and plain["fitted_on"].startswith("every usable row")
+    prov = handover.provenance(
+        file_name="f.csv", sha256=None, x="a", y="b", rows_used=8, excluded={"lines": [12, 9], "reason": "spilt"}
+    )
+    assert prov["rows_excluded"] == {"lines": [12, 9], "reason": "spilt"}
+    assert "except 2 left out on purpose, lines 12, 9 (spilt)" in prov["fitted_on"]
+    summary = {"summary": {"accepted": True, "share_passing_percent": float("nan")}, "rule": "r", "tolerance": 15.0}
+    doc = json.loads(handover.model_json(fit, prov, back_calculation=summary))
+    assert doc[handover.PROVENANCE_KEY] == prov
+    assert doc[handover.BACK_CALCULATION_KEY]["summary"] == {"accepted": True, "share_passing_percent": None}
+    assert handover.BACK_CALCULATION_KEY not in handover.model_document(fit, prov)

@@ -310,7 +310,8 @@ def test_a_second_browser_does_not_see_the_first_ones_upload(server, tmp_path):
             b.goto(shared_url)  # the address A would share: settings only, no dataset
             wait_for_title(b, "fit-chart", "Degree")
             b.wait_for_function("() => document.getElementById('intake-report').innerText.length > 0")
-            assert "invented-browser-a" not in b.inner_text("body")
+            # the address may name A's file (B is then asked to load it), but B sees none of its data
+            assert "invented-browser-a" not in b.inner_text("#intake-report")
             # B is handed A's dataset id itself (as if copied from A's page): told to load the file, shown nothing
             b.evaluate("(ds) => window.dash_clientside.set_props('dataset', {data: ds})", ds_a)
             b.wait_for_function(

@@ -1,9 +1,10 @@
 """The ``degreescope`` command line.
 
     degreescope [--debug] serve   [FILE] [--host H] [--port P] [--threads N] [--no-token] ...
-    degreescope [--debug] fit     FILE --degree N [--x COL] [--y COL] [--weights COL] ...
+    degreescope [--debug] fit     FILE --degree N [--x COL] [--y COL] [--weights COL | --weighting RULE] ...
     degreescope [--debug] sweep   FILE [--max-degree D] [--folds K | --holdout F | --group COL] ...
     degreescope [--debug] predict MODEL.json (--at X [X ...] | --input FILE) ...
+    degreescope [--debug] predict MODEL.json (--from-y Y [Y ...] | --input FILE (--y COL | --from-y)) ...
     degreescope --version
 
 FILE may be ``-`` for standard input; ``--sheet NAME|INDEX`` picks a workbook's sheet.
@@ -19,7 +20,11 @@ JSON object's ``warnings``.
 
 One module per command (``fit``, ``sweep``, ``predict``, ``serve``), each adding its own
 subparser; ``_args`` holds the argument types and shared options, ``_output`` the
-tables, JSON and warnings. The engine is imported when a command runs, not for
+tables, JSON and warnings, ``_data`` the column checks and rows left out on purpose,
+``_readback`` reading readings back through a model, ``_standards`` the named weighting,
+back-calculated standards and weighting comparison, ``_evidence`` the tests beside a
+degree (lack of fit, added term, Mandel, influence, verdict stability).
+The engine is imported when a command runs, not for
 ``--help`` or ``--version``; only ``serve`` imports dash and plotly. Files the command
 line writes are written whole or not at all (``app._atomic``) through ``app.handover``;
 input files are only read.

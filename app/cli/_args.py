@@ -73,6 +73,14 @@ def finite_float(text: str) -> float:
     return v
 
 
+def reading(text: str) -> float:
+    """A reading to read back: a finite number; text, NaN and infinity are refused by name."""
+    try:
+        return finite_float(text)
+    except argparse.ArgumentTypeError:
+        raise argparse.ArgumentTypeError(f"a reading must be a finite number, not {text!r}") from None
+
+
 def size_limit_mb(text: str) -> int:
     v = positive_int(text)
     if v > MAX_SIZE_LIMIT_MB:

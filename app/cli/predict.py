@@ -1,13 +1,19 @@
-"""``degreescope predict MODEL.json``: predictions with confidence and prediction intervals from a saved model."""
+"""``degreescope predict MODEL.json``: predictions with confidence and prediction intervals from a saved model.
+
+With ``--from-y`` (or ``--input FILE --y COL``) it reads readings back to x instead (``_readback``).
+"""
 
 from __future__ import annotations
 
 import json
 
 from .._atomic import write_text_atomic
-from . import _args, _output
+from . import _args, _output, _readback
 
-HELP = "Predictions with confidence and prediction intervals from a saved model."
+HELP = (
+    "Predictions with confidence and prediction intervals from a saved model; with --from-y, readings read back "
+    "to x with calibration intervals."
+)
 ROW_KEYS = (
     "x",
     "prediction",
@@ -22,19 +28,47 @@ ROW_KEYS = (
 def add_parser(sub) -> None:
     p = _args.add_command(sub, "predict", HELP)
     p.add_argument("model", metavar="MODEL.json", help="a model file written by `fit --save-model`")
-    where = p.add_mutually_exclusive_group(required=True)
+    where = p.add_mutually_exclusive_group()
     where.add_argument("--at", type=_args.finite_float, nargs="+", metavar="X", help="x values to predict at")
-    where.add_argument("--input", metavar="FILE", help="a table whose x column to predict at; - reads standard input")
+    where.add_argument(
+        "--input",
+        metavar="FILE",
+        help="a table whose x column to predict at (or, with --y or --from-y, whose readings to read back); "
+        "- reads standard input",
+    )
     p.add_argument(
         "--x",
         metavar="COL",
         help="with --input: the x column (default: the model's x name, else the first numeric column)",
     )
     p.add_argument(
+        "--from-y",
+        type=_args.reading,
+        nargs="*",
+        metavar="Y",
+        help="read these readings (responses) back to x, with calibration intervals; with --input and no values, "
+        "read back the readings of that table",
+    )
+    p.add_argument(
+        "--y",
+        metavar="COL",
+        help="with --input: the column of readings to read back (default: the model's y name, or the only "
+        "numeric column)",
+    )
+    p.add_argument(
+        "--readings",
+        type=_args.positive_int,
+        default=1,
+        metavar="K",
+        help="with --from-y: each reading is the mean of K replicate readings (default: 1)",
+    )
+    p.add_argument(
         "--level", type=_args.finite_float, default=0.95, help="interval level between 0 and 1 (default: 0.95)"
     )
     _args.add_json(p)
-    p.add_argument("--output", metavar="PATH.csv", help="also write the predictions to this CSV file")
+    p.add_argument(
+        "--output", metavar="PATH.csv", help="also write the predictions (or the read-back rows) to this CSV file"
+    )
     _args.add_intake(p)
     p.set_defaults(func=run)
 
@@ -114,10 +148,13 @@ def run(args) -> int:
 
     from .. import handover
 
+    read_back = _readback.check_mode(args)
     model = load_model(args.model)
     if not (0.0 < args.level < 1.0):
         raise _args.UsageError(f"--level must be between 0 and 1 (e.g. 0.95), not {args.level}")
     inputs = [_args.existing_file(args.model, "model file")]
+    if read_back:
+        return _readback.run(args, model, inputs)
     if args.at is not None:
         xs, x_label, left_out = np.asarray(args.at, dtype=np.float64), model.x_name or "x", 0
     else:

@@ -20,7 +20,13 @@ __all__ = ["INTERNAL_ERROR", "PANELS", "PageConfig", "degree_marks", "panel", "u
 
 PANELS = (data, split, caution, degree, charts, model, predict, downloads)
 
-# -- calibration: the read-back panel beside the prediction panel, the standards panel after the model card --
+# -- evidence panel (app/panels/evidence.py) ---------------------------------------------
+from . import evidence  # noqa: E402  (own block, added after the panels above)
+
+PANELS = (*PANELS, evidence)
+
+
+# -- calibration: the read-back panel beside the prediction panel, the standards panel last in the main column --
 from . import readback, standards  # noqa: E402
 
 PANELS = PANELS[: PANELS.index(predict) + 1] + (readback,) + PANELS[PANELS.index(predict) + 1 :] + (standards,)

@@ -10,6 +10,7 @@ from dash import Input, Output, State, dcc, html, no_update
 
 from .. import components, figures, ids, text
 from ..service import FitService, clamp_degree
+from ..views_evidence import exclusions_of
 from ._common import PageConfig, degree_marks, notice_on_error
 from .settings import from_key, split_key
 
@@ -88,15 +89,29 @@ INPUTS = dict(
     holdout=Input(ids.HOLDOUT, "value"),
     folds=Input(ids.FOLDS, "value"),
     seed=Input(ids.SEED, "value"),
+    exclusions=Input(ids.EXCLUSIONS, "data"),
 )
 STATE = dict(degree=State(ids.DEGREE, "value"), bands=State(ids.BANDS, "value"))
 
 
 def on_split(
-    service: FitService, dataset, x, y, weights, group, mode, holdout, folds, seed, degree=None, bands=None
+    service: FitService,
+    dataset,
+    x,
+    y,
+    weights,
+    group,
+    mode,
+    holdout,
+    folds,
+    seed,
+    degree=None,
+    bands=None,
+    exclusions=None,
 ) -> dict:
     """Both charts, the verdict, the slider's range and the settings record for a new data/column/split choice."""
-    key = split_key(dataset, x, y, weights, group, mode, holdout, folds, seed)
+    left_out = exclusions_of(exclusions, (dataset or {}).get("id"))
+    key = split_key(dataset, x, y, weights, group, mode, holdout, folds, seed, [e.line for e in left_out])
     ds, cols, split = from_key(key)
     view = service.split_view(ds, cols, split)
     d = view.recommended_degree if degree is None else clamp_degree(degree, view.max_degree)

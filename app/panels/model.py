@@ -8,10 +8,11 @@ It follows the settled degree (off the chart's critical path) and writes the sha
 from __future__ import annotations
 
 import numpy as np
-from dash import Input, Output, dcc, html, no_update
+from dash import Input, Output, State, dcc, html, no_update
 
 from .. import components, figures, ids, text, views_model
 from ..service import FitService
+from ..views_evidence import exclusions_of, url_value
 from ._common import PageConfig, notice_on_error, panel
 from .settings import from_key, url_query
 
@@ -56,9 +57,10 @@ OUTPUT = dict(
     search=Output(ids.URL, "search"),
 )
 INPUTS = dict(key=Input(ids.SPLIT_KEY, "data"), degree=Input(ids.DEGREE_SETTLED, "data"))
+STATE = dict(exclusions=State(ids.EXCLUSIONS, "data"))
 
 
-def on_model(service: FitService, key, degree) -> dict:
+def on_model(service: FitService, key, degree, exclusions=None) -> dict:
     """The hand-over fit's tables, equation, residual chart and note, and the URL for these settings."""
     if not key or degree is None:
         return {name: no_update for name in OUTPUT}
@@ -73,7 +75,7 @@ def on_model(service: FitService, key, degree) -> dict:
         coefficients=components.model_coefficient_table(model),
         residual_figure=residual_figure(view, model),
         note=text.handover_note(model),
-        search=url_query(key, model.fit.degree),
+        search=url_query(key, model.fit.degree, url_value(exclusions_of(exclusions, ds))),
     )
 
 
@@ -88,6 +90,6 @@ def residual_figure(view, model):
 
 def register(app, service: FitService) -> None:
     """Wire the model card."""
-    app.callback(output=OUTPUT, inputs=INPUTS, on_error=notice_on_error(OUTPUT, "note"))(
-        lambda key, degree: on_model(service, key, degree)
+    app.callback(output=OUTPUT, inputs=INPUTS, state=STATE, on_error=notice_on_error(OUTPUT, "note"))(
+        lambda key, degree, exclusions: on_model(service, key, degree, exclusions)
     )

@@ -16,7 +16,7 @@ from fitting import DegreescopeError
 from ..service import Columns, SplitSettings
 
 
-def split_key(dataset, x, y, weights, group, mode, holdout, folds, seed) -> dict:
+def split_key(dataset, x, y, weights, group, mode, holdout, folds, seed, excluded=()) -> dict:
     """The store record of the chart settings; refused split values are replaced by the ones in force."""
     s, _refused = SplitSettings.coerce(mode, holdout, 10 if folds is None else folds, 0 if seed is None else seed)
     if not dataset or not dataset.get("id"):
@@ -37,6 +37,7 @@ def split_key(dataset, x, y, weights, group, mode, holdout, folds, seed) -> dict
         "file": dataset.get("name"),
         "sha": dataset.get("sha") or None,
         "sheet": dataset.get("sheet") or None,
+        "excluded": sorted(int(v) for v in excluded),
     }
 
 
@@ -44,14 +45,14 @@ def from_key(key: dict) -> tuple[str, Columns, SplitSettings]:
     """(dataset id, columns, split) from a store record made by ``split_key``."""
     if not key:
         raise DegreescopeError("The charts are not ready yet; wait a moment or upload a file.")
-    cols = Columns(key["x"], key["y"], key.get("weights"), key.get("group"))
+    cols = Columns(key["x"], key["y"], key.get("weights"), key.get("group"), tuple(key.get("excluded") or ()))
     split = SplitSettings(
         mode=key["mode"], holdout=float(key["holdout"]), folds=int(key["folds"]), seed=int(key["seed"])
     )
     return key["dataset"], cols, split
 
 
-def url_query(key: dict, degree) -> str:
+def url_query(key: dict, degree, out: str | None = None) -> str:
     """The URL query that restores these settings and this degree."""
     q = {k: key[k] for k in ("file", "sha", "sheet") if key.get(k)}
     q.update(x=key["x"], y=key["y"])
@@ -64,6 +65,8 @@ def url_query(key: dict, degree) -> str:
     )
     if degree is not None:
         q["degree"] = str(int(degree))
+    if out:
+        q["out"] = out
     return "?" + urlencode(q)
 
 
