@@ -8,6 +8,8 @@ comes from the engine's own fit, checked against numpy's polynomial roots (numpy
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import numpy as np
 import pytest
 from browser_support import ARTIFACTS, ServerThread, browser_problem, chart_title, chromium, wait_for_title
@@ -56,7 +58,7 @@ def browser():
 
 
 def open_page(browser, server, width: int = 1500):
-    ctx = browser.new_context(viewport={"width": width, "height": 1300})
+    ctx = browser.new_context(viewport={"width": width, "height": 1300}, accept_downloads=True)
     pg = ctx.new_page()
     pg.set_default_timeout(20_000)
     pg.goto(server.url)
@@ -172,6 +174,11 @@ def test_reading_gives_x0_interval_and_a_line_that_follows_the_degree(browser, s
             )
         finally:
             ctx2.close()
+        with page.expect_download() as dl:  # the HTML report carries the reading and the standards
+            page.click("#report-button")
+        report = Path(dl.value.path()).read_text(encoding="utf-8")
+        assert "Read-back of unknowns" in report and "90 % calibration interval" in report
+        assert "Back-calculated standards" in report
         page.fill("#readback-input", "")  # clearing the readings takes the marks off the chart
         page.wait_for_function(
             "(owner) => { const gd = document.querySelector('#fit-chart .js-plotly-plot');"

@@ -421,3 +421,19 @@ def test_without_a_named_weighting_the_hand_over_model_is_read_through(pontius):
     model = cal.calibration_fit(service, ds, cols, split, 2, "none")
     assert model.fit is views_model.handover_fit(service, ds, cols, 2)
     assert cal.calibration_fit(service, ds, cols, split, 2, "1/x").fit is not model.fit
+
+
+def test_the_html_report_carries_the_read_back_and_the_standards(pontius):
+    """The report button's file holds the readings read back and the standards table the panels show."""
+    from app.panels import downloads
+
+    service, key, d = pontius
+    calibration = dict(readings="0.9; 1.45", count=3, level=90, weighting="none", tolerance=15, lowest_tolerance=20)
+    page = downloads.on_export(service, "report", key, 2, ["confidence"], "", calibration)["download"]["content"]
+    assert "Read-back of unknowns" in page and "90 % calibration interval" in page
+    assert "Back-calculated standards" in page
+    rb = readback.on_readback(service, "0.9; 1.45", 3, 90, "none", key, 2)
+    (line,) = [s for s in marks_of(rb["marks"], "-x") if "-0-" in s["name"]]
+    assert f"{line['x0']:.8g}" in page  # the same x0 as on the page (8 significant digits)
+    plain = downloads.on_export(service, "report", key, 2, ["confidence"], "")["download"]["content"]
+    assert "Read-back of unknowns" not in plain  # nothing typed, no section

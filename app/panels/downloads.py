@@ -14,8 +14,9 @@ from dash import Input, Output, State, ctx, dcc, html, no_update
 
 from fitting import DegreescopeError
 
-from .. import exports, figures, ids, text, views_model
+from .. import exports, figures, ids, text, views_calibration, views_model
 from ..service import FitService
+from . import readback
 from ._common import PageConfig, notice_on_error, panel
 from .predict import typed_x
 from .settings import from_key
@@ -79,6 +80,7 @@ STATE = dict(
     degree=State(ids.DEGREE_SETTLED, "data"),
     bands=State(ids.BANDS, "value"),
     text=State(ids.PREDICT_INPUT, "value"),
+    calibration=readback.REPORT_STATE,  # the read-back and standards panels' inputs, for the report
 )
 
 
@@ -92,16 +94,17 @@ def _predictions_csv(service: FitService, key: dict, degree, text_in) -> str:
     return exports.predictions_csv(p, x_name=cols.x, y_name=cols.y, y_observed=sel.y)
 
 
-def _report(service: FitService, key: dict, degree, bands) -> str:
+def _report(service: FitService, key: dict, degree, bands, calibration=None) -> str:
     ds, cols, split = from_key(key)
     view = service.split_view(ds, cols, split)
     dv = service.degree_view(ds, cols, split, degree)
     model = views_model.handover_model(service, ds, cols, split, degree)
     fit_fig, err_fig = figures.fit_figure(view, dv, bands), figures.error_figure(view, dv)
-    return exports.html_report(service.info(ds), view, dv, model, fit_fig, err_fig)
+    sections = views_calibration.report_sections(service, key, degree, **(calibration or {}))
+    return exports.html_report(service.info(ds), view, dv, model, fit_fig, err_fig, **sections)
 
 
-def on_export(service: FitService, which: str, key, degree, bands, text_in) -> dict:
+def on_export(service: FitService, which: str, key, degree, bands, text_in, calibration=None) -> dict:
     """The file for one download button: "model", "csv" or "report"; each holds the every-row fit."""
     if not key or degree is None:
         raise DegreescopeError("Nothing to export yet; wait for the charts.")
@@ -115,18 +118,22 @@ def on_export(service: FitService, which: str, key, degree, bands, text_in) -> d
         content = _predictions_csv(service, key, degree, text_in)
         data = {"content": content, "filename": f"{stem}.predictions.csv", "type": "text/csv"}
     else:
-        data = {"content": _report(service, key, degree, bands), "filename": f"{stem}.report.html", "type": "text/html"}
+        data = {
+            "content": _report(service, key, degree, bands, calibration),
+            "filename": f"{stem}.report.html",
+            "type": "text/html",
+        }
     return dict(download=data, notice="")
 
 
 def register(app, service: FitService) -> None:
     """Wire the download buttons and the clientside chart images."""
 
-    def export_cb(n_report, n_model, n_csv, key, degree, bands, text):
+    def export_cb(n_report, n_model, n_csv, key, degree, bands, text, calibration=None):
         which = BUTTONS.get(ctx.triggered_id)
         if which is None:
             return dict(download=no_update, notice=no_update)
-        return on_export(service, which, key, degree, bands, text)
+        return on_export(service, which, key, degree, bands, text, calibration)
 
     app.callback(
         output=OUTPUT,

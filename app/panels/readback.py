@@ -141,6 +141,18 @@ def _on_error(exc: Exception) -> dict:
     return out
 
 
+# the calibration panels' inputs, as the downloads panel reads them for the HTML report
+# (``views_calibration.report_sections(service, key, degree, **values)``)
+REPORT_STATE = dict(
+    readings=State(ids.READBACK_INPUT, "value"),
+    count=State(ids.READBACK_COUNT, "value"),
+    level=State(ids.READBACK_LEVEL, "value"),
+    weighting=State(ids.WEIGHTING, "value"),
+    tolerance=State(ids.TOLERANCE, "value"),
+    lowest_tolerance=State(ids.LOWEST_TOLERANCE, "value"),
+)
+
+
 # the level box is the page's interval level control: it writes ids.INTERVAL_LEVEL (which the
 # address keeps) and follows it when the address restores a view
 
