@@ -20,7 +20,7 @@ import re
 import threading
 import weakref
 from collections import OrderedDict
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -263,17 +263,8 @@ def weighting_comparison(service: FitService, ds: str, cols: Columns, model: Cal
 
 
 def _compare(model: CalibrationModel, degree: int) -> WeightingComparison:
-    """The engine's comparison, with a skipped rule's rows named by their lines in the file."""
-    result = fitting.compare_weightings(model.x, model.y, degree)
-    rows = []
-    for row in result.rows:
-        if row.rank is None and model.lines is not None:
-            try:
-                fitting.weights_for(row.weighting, model.x, model.y, rows=model.lines)
-            except FitError as exc:
-                row = replace(row, note=f"Skipped: {exc}")
-        rows.append(row)
-    return replace(result, rows=tuple(rows))
+    """The engine's comparison; a rule undefined on some rows names them by their lines in the file."""
+    return fitting.compare_weightings(model.x, model.y, degree, lines=model.lines)
 
 
 # ----------------------------------------------------------------------------

@@ -437,3 +437,17 @@ def test_the_html_report_carries_the_read_back_and_the_standards(pontius):
     assert f"{line['x0']:.8g}" in page  # the same x0 as on the page (8 significant digits)
     plain = downloads.on_export(service, "report", key, 2, ["confidence"], "")["download"]["content"]
     assert "Read-back of unknowns" not in plain  # nothing typed, no section
+
+
+def test_rows_left_out_by_the_analyst_are_left_out_of_the_read_back(pontius):
+    """A file line left out (the evidence panel's exclusions, carried by the settings record) is not fitted:
+    x0 equals statsmodels' on the other 39 rows (brentq)."""
+    service, key, d = pontius
+    key = dict(key, excluded=[12])  # line 12 of the file: header on line 1, so the 11th pair
+    keep = np.arange(d.x.size) != 10
+    u = d.x[keep] / SCALE
+    ref = Reference(sm.OLS(d.y[keep], np.vander(u, 3, increasing=True)).fit())
+    out = readback.on_readback(service, "1.2", 1, 95, "none", key, 2)
+    (line,) = marks_of(out["marks"], "-x")
+    assert line["x0"] == pytest.approx(ref.read(1.2, 1, u.min(), u.max())[0] * SCALE, rel=1e-6)
+    assert "39 usable rows" in out["note"] and out["marks"]["stamp"][7] == [12]

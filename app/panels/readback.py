@@ -108,7 +108,8 @@ INPUTS = dict(
 
 
 def _stamp(key, degree, weighting) -> list:
-    return [key.get(k) for k in ("dataset", "x", "y", "mode", "holdout", "folds", "seed")] + [degree, weighting]
+    names = ("dataset", "x", "y", "mode", "holdout", "folds", "seed", "excluded")
+    return [key.get(k) for k in names] + [degree, weighting]
 
 
 def on_readback(service: FitService, readings, count, level, weighting, key, degree) -> dict:

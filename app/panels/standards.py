@@ -115,7 +115,7 @@ def on_standards(service: FitService, weighting, tolerance, lowest_tolerance, ke
     back = cal.back_calculation(model, tol, low)
     comparison = cal.weighting_comparison(service, ds, cols, model)
     extra = [html.P(text.weighting_column_note(str(cols.weights)), className="muted small")] if cols.weights else []
-    stamp = [key.get("dataset"), key.get("x"), key.get("y"), key.get("mode"), model.fit.degree, model.weighting]
+    stamp = [key.get(k) for k in ("dataset", "x", "y", "mode", "excluded")] + [model.fit.degree, model.weighting]
     return dict(
         note=html.P(model.note, className="muted small"),
         summary=text.standards_summary(back.summary),
