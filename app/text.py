@@ -678,10 +678,10 @@ def standards_summary(s) -> str:
         )
         + "."
     )
-    ringed = " Failing standards are ringed on the fit chart." if s.standards_passing < s.standards else ""
+    marked = " Failing standards are crossed out in red on the fit chart." if s.standards_passing < s.standards else ""
     return (
         f"{s.standards_passing} of {s.standards} standards pass ({share}); "
-        f"{s.levels_passing} of {s.levels} levels pass. {verdict}{ringed}"
+        f"{s.levels_passing} of {s.levels} levels pass. {verdict}{marked}"
     )
 
 

@@ -307,7 +307,7 @@ def reading_marks(result: ReadBack | None, domain=(0.0, 1.0), stamp=None) -> dic
 
 
 def failing_marks(back: BackCalculation | None, stamp=None) -> dict:
-    """A marker trace (meta owner STANDARDS_OWNER) ringing every standard that fails or does not read back."""
+    """A marker trace (meta owner STANDARDS_OWNER) crossing every standard that fails or does not read back."""
     traces: list[dict] = []
     failing = [] if back is None else [r for r in back.rows if r.within_tolerance is False]
     if failing:
@@ -319,7 +319,7 @@ def failing_marks(back: BackCalculation | None, stamp=None) -> dict:
                 y=[r.y for r in failing],
                 name=text.FAILING_MARK_NAME,
                 meta={"owner": STANDARDS_OWNER},
-                marker=dict(symbol="circle-open", size=17, color=FAIL_COLOUR, line=dict(width=2.5, color=FAIL_COLOUR)),
+                marker=dict(symbol="x-thin", size=15, color=FAIL_COLOUR, line=dict(width=2.5, color=FAIL_COLOUR)),
                 hovertemplate="standard outside tolerance<br>x = %{x}<br>y = %{y}<extra></extra>",
             )
         )

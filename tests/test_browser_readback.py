@@ -2,7 +2,7 @@
 
 A reading typed into the read-back panel gives x0 and its calibration interval, and its dashed
 line and shaded interval appear in the fit chart's ``layout.shapes``; a degree change moves them.
-The standards table shows, and a failing standard is ringed on the fit chart. The expected x0
+The standards table shows, and a failing standard is marked on the fit chart. The expected x0
 comes from the engine's own fit, checked against numpy's polynomial roots (numpy reference).
 """
 
@@ -27,7 +27,7 @@ JS_SHAPES = """() => {
                                               y0: s.y0, y1: s.y1, xref: s.xref, yref: s.yref}));
 }"""
 
-JS_RINGS = """(owner) => {
+JS_MARKS = """(owner) => {
     const gd = document.querySelector('#fit-chart .js-plotly-plot');
     if (!gd || !gd.data) return null;
     const t = gd.data.filter(d => d.meta && d.meta.owner === owner);
@@ -189,7 +189,7 @@ def test_reading_gives_x0_interval_and_a_line_that_follows_the_degree(browser, s
         ctx.close()
 
 
-def test_standards_table_and_a_failing_standard_ringed(browser, server):
+def test_standards_table_and_a_failing_standard_marked(browser, server):
     ctx, page = open_page(browser, server)
     try:
         page.set_input_files("#upload input[type=file]", str(SAMPLES / "dose_response.csv"))
@@ -211,10 +211,10 @@ def test_standards_table_and_a_failing_standard_ringed(browser, server):
             " return !!gd && gd.data.some(d => d.meta && d.meta.owner === owner); }",
             arg="degreescope-standards",
         )
-        rings = page.evaluate(JS_RINGS, "degreescope-standards")
+        marks = page.evaluate(JS_MARKS, "degreescope-standards")
         assert "Degree 2 fit" in chart_title(page, FIT)
         failing = page.locator("#standards-table td.cal-fail").count()
-        assert len(rings) == 1 and len(rings[0]["x"]) == failing > 0
+        assert len(marks) == 1 and len(marks[0]["x"]) == failing > 0
         assert page.locator("#weighting-table tbody tr").count() == 5
         page.screenshot(path=str(ARTIFACTS / "standards-1500.png"), full_page=True)
     finally:

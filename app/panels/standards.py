@@ -4,7 +4,7 @@ The weighting picked here (none, 1/x, 1/x², 1/y, 1/y²; ``fitting.WEIGHTINGS``)
 of the calibration fit this panel and the read-back panel use (``app/views_calibration.py``).
 Rows where the rule is undefined are refused with their line numbers. The tolerances default
 to the bioanalytical rule of FDA 2018 and ICH M10 (±15 %, ±20 % at the lowest level) and can
-be set. Failing standards are ringed on the fit chart by a marker trace that a clientside
+be set. Failing standards are crossed out in red on the fit chart by a marker trace that a clientside
 ``dash.Patch`` appends to the chart's data, after removing the one it added before (found by
 its ``meta.owner``, ``views_calibration.STANDARDS_OWNER``).
 """
@@ -133,7 +133,7 @@ def _on_error(exc: Exception) -> dict:
 
 
 def register(app, service: FitService) -> None:
-    """Wire the standards table and the clientside merge of the failing standards' ring trace."""
+    """Wire the standards table and the clientside merge of the failing standards' marker trace."""
     app.callback(output=OUTPUT, inputs=INPUTS, on_error=_on_error)(
         lambda weighting, tolerance, lowest_tolerance, key, degree: on_standards(
             service, weighting, tolerance, lowest_tolerance, key, degree
