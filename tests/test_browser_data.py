@@ -111,11 +111,12 @@ def test_a_workbook_second_sheet_is_fitted(browser, server, tmp_path):
         wait_for_title(pg, FIT, "response B against dose (ug)")
         points = trace(pg, FIT, 0)["y"] + trace(pg, FIT, 1)["y"]
         assert len(points) == 15 and min(points) < -40  # run B falls with dose
-        # the model card follows: its coefficients are those of run B's training points
-        # (numpy.polynomial.polyfit on the chart's training trace as the reference)
+        # the model card follows: its coefficients are those of every row of run B, the model
+        # handed over (numpy.polynomial.polyfit on the chart's training and test points as the reference)
         pg.wait_for_function("() => location.search.includes('sheet=run+B')")
-        train = trace(pg, FIT, 0)
-        x, y = np.asarray(train["x"], dtype=float), np.asarray(train["y"], dtype=float)
+        train, test = trace(pg, FIT, 0), trace(pg, FIT, 1)
+        x = np.asarray(list(train["x"]) + list(test["x"]), dtype=float)
+        y = np.asarray(list(train["y"]) + list(test["y"]), dtype=float)
         d = degree_now(pg)
         pg.wait_for_function(  # the slope cell of run B's card is negative
             "() => { const c = document.querySelectorAll('#coefficients td.num');"
