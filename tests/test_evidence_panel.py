@@ -296,3 +296,17 @@ def test_stability_waits_for_the_settings_to_rest():
     (key,) = [k for k in dash_app.callback_map if ids.STABILITY_CHART in k]
     assert [i["id"] for i in dash_app.callback_map[key]["inputs"]] == [ids.STABILITY_GO]
     assert E.STABILITY_REST_MS >= 500 and "setTimeout" in E.STABILITY_REST_JS
+
+
+def test_rings_are_kept_to_the_most_influential_rows():
+    # common practice, no source: on large data many rows pass a threshold; ring the largest Cook's distances
+    from types import SimpleNamespace
+
+    from app.panels.evidence import RING_LIMIT, most_influential
+
+    rows = [SimpleNamespace(line=i + 2, cooks=float(i % 97)) for i in range(500)]
+    kept = most_influential(rows)
+    assert len(kept) == RING_LIMIT
+    assert [r.line for r in kept] == sorted(r.line for r in kept)
+    assert min(r.cooks for r in kept) >= sorted((r.cooks for r in rows), reverse=True)[RING_LIMIT - 1]
+    assert most_influential(rows[:3]) == rows[:3]

@@ -249,6 +249,17 @@ def on_stability(service: FitService, key, store, go=None) -> dict:
 # rings on the fit and residual charts
 
 
+RING_LIMIT = 50  # rings drawn at most: on large data many rows pass a threshold, and the curve layer stays light
+
+
+def most_influential(rows, limit: int = RING_LIMIT):
+    """The ``limit`` flagged rows with the largest Cook's distance, in file order (all of them when fewer)."""
+    if len(rows) <= limit:
+        return rows
+    keep = sorted(rows, key=lambda r: -(r.cooks if r.cooks == r.cooks else 0.0))[:limit]
+    return sorted(keep, key=lambda r: r.line)
+
+
 def ring_trace(rows, ys, chart: str) -> dict | None:
     """The ring trace over the flagged rows at heights ``ys`` (None when no row is flagged)."""
     if not rows:
@@ -309,6 +320,7 @@ def on_fit_ring(service: FitService, key, degree, store, previous) -> dict:
     if not key or whole(degree) is None:
         return {name: no_update for name in RING_FIT_OUTPUT}
     *_, rows = _flagged(service, key, whole(degree), store)
+    rows = most_influential(rows)
     new = ring_trace(rows, [r.y for r in rows], "fit")
     return dict(figure=ring_patch(previous, new), ring=new)
 
@@ -330,6 +342,7 @@ def on_residual_ring(service: FitService, note, store, key, degree, previous) ->
     if not key or whole(degree) is None:
         return {name: no_update for name in RING_RESIDUAL_OUTPUT}
     ds, cols, split, rows = _flagged(service, key, whole(degree), store)
+    rows = most_influential(rows)
     new = None
     if rows:
         fit = views_model.handover_fit(service, ds, cols, whole(degree))  # the fit the residual chart draws
