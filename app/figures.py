@@ -185,7 +185,7 @@ def _curve_traces(view: SplitView, dv: DegreeView, bands: set) -> list[dict]:
         x=g,
         y=_list(dv.curve),
         mode="lines",
-        name=f"degree {dv.degree} fit",
+        name=text.curve_label(dv.degree, view.split.mode),
         line=dict(color=CURVE, width=2.6),
         hovertemplate="x %{x:.6g}<br>fit %{y:.6g}<extra></extra>",
     )
@@ -257,7 +257,7 @@ def fit_degree_patch(view: SplitView, dv: DegreeView, bands=(CONFIDENCE,)) -> Pa
         p["data"][ids.FIT_TRACE_CONF_LO]["y"] = _wire(dv.conf_lo)
         p["data"][ids.FIT_TRACE_CONF_HI]["y"] = _wire(dv.conf_hi)
     p["data"][ids.FIT_TRACE_CURVE]["y"] = _wire(dv.curve)
-    p["data"][ids.FIT_TRACE_CURVE]["name"] = f"degree {dv.degree} fit"
+    p["data"][ids.FIT_TRACE_CURVE]["name"] = text.curve_label(dv.degree, view.split.mode)
     for i in (ids.FIT_TRACE_PRED_LO, ids.FIT_TRACE_PRED_HI):
         p["data"][i]["visible"] = PREDICTION in bands
     for i in (ids.FIT_TRACE_CONF_LO, ids.FIT_TRACE_CONF_HI):
@@ -300,7 +300,7 @@ def _error_traces(view: SplitView) -> list[dict]:
         x=verdict.degrees.astype(int).tolist(),
         y=_list(verdict.test_rmse),
         mode="lines",
-        name="verdict CV (test)",
+        name=text.LEGEND_VERDICT,
         line=dict(color=STEADY, width=1.6, dash="dash"),
         hovertemplate="degree %{x}<br>steady CV RMSE %{y:.4g}<extra></extra>",
     )
@@ -313,7 +313,7 @@ def _degree_markers(view: SplitView, dv: DegreeView) -> list[dict]:
         x=[dv.degree],
         y=[_current_y(dv)],
         mode="markers",
-        name="current",
+        name=text.LEGEND_CURRENT,
         marker=dict(symbol="circle-open", size=20, color=HIGHLIGHT, line=dict(width=3)),
         hoverinfo="skip",
     )

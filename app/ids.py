@@ -141,3 +141,7 @@ STANDARDS_TABLE = "standards-table"
 WEIGHTING_TABLE = "weighting-table"
 STANDARDS_NOTE = "standards-note"
 STANDARDS_MARKS = "standards-marks"  # dcc.Store: the marker trace of failing standards
+
+# -- chart keys: every mark of a chart in plain words (panels/charts.py) ----------------
+FIT_KEY = "fit-key"
+ERROR_KEY = "error-key"

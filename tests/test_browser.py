@@ -171,10 +171,14 @@ def test_switch_between_holdout_and_k_fold(page):
     wait_for_title(page, ERR, "10-fold cross-validation")
     err = page.evaluate("() => document.querySelector('#error-chart .js-plotly-plot')._fullData[1].error_y.visible")
     assert err is True
+    # the boxes follow the mode in their own callback: wait for them rather than race the chart
+    page.wait_for_selector("#holdout-box", state="hidden")
+    page.wait_for_selector("#folds-box", state="visible")
     assert page.locator("#holdout-box").is_hidden() and page.locator("#folds-box").is_visible()
     shot(page, "04-kfold")
     page.get_by_text("Random holdout", exact=True).click()
     wait_for_title(page, ERR, "random holdout")
+    page.wait_for_selector("#holdout", state="visible")
     assert page.locator("#holdout").is_visible()
     page.click("#new-split")
     wait_for_title(page, ERR, "(seed 1)")

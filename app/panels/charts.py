@@ -17,7 +17,7 @@ from .settings import from_key, split_key
 SLOT = "main"
 
 
-def _chart(graph_id: str, png_id: str, svg_id: str, filename: str, height: int) -> html.Div:
+def _chart(graph_id: str, png_id: str, svg_id: str, filename: str, height: int, key_id: str) -> html.Div:
     tools = html.Div(
         [
             html.Span("Save for slides:", className="muted"),
@@ -33,7 +33,8 @@ def _chart(graph_id: str, png_id: str, svg_id: str, filename: str, height: int) 
         style={"height": f"{height}px"},
         className="chart",
     )
-    return html.Div([graph, tools], className="chart-card")
+    key = html.P(id=key_id, className="muted small chart-key")  # every mark in plain words
+    return html.Div([graph, key, tools], className="chart-card")
 
 
 def layout(cfg: PageConfig) -> list:
@@ -55,8 +56,8 @@ def layout(cfg: PageConfig) -> list:
     )
     charts = html.Div(
         [
-            _chart(ids.FIT_CHART, ids.FIT_PNG, ids.FIT_SVG, "degreescope-fit", 500),
-            _chart(ids.ERROR_CHART, ids.ERROR_PNG, ids.ERROR_SVG, "degreescope-error-by-degree", 500),
+            _chart(ids.FIT_CHART, ids.FIT_PNG, ids.FIT_SVG, "degreescope-fit", 500, ids.FIT_KEY),
+            _chart(ids.ERROR_CHART, ids.ERROR_PNG, ids.ERROR_SVG, "degreescope-error-by-degree", 500, ids.ERROR_KEY),
         ],
         className="charts",
     )
@@ -66,6 +67,8 @@ def layout(cfg: PageConfig) -> list:
 OUTPUT = dict(
     fit_figure=Output(ids.FIT_CHART, "figure"),
     error_figure=Output(ids.ERROR_CHART, "figure"),
+    fit_key=Output(ids.FIT_KEY, "children"),
+    error_key=Output(ids.ERROR_KEY, "children"),
     degree_max=Output(ids.DEGREE, "max"),
     degree_marks=Output(ids.DEGREE, "marks"),
     degree=Output(ids.DEGREE, "value", allow_duplicate=True),
@@ -120,6 +123,8 @@ def on_split(
     return dict(
         fit_figure=figures.fit_figure(view, dv, bands),
         error_figure=figures.error_figure(view, dv),
+        fit_key=text.fit_chart_key(split.mode),
+        error_key=text.error_chart_key(view),
         degree_max=view.max_degree,
         degree_marks=degree_marks(view.max_degree),
         degree=d if d != degree else no_update,
