@@ -171,9 +171,17 @@ def dataset_sha256(service: FitService, ds_id: str) -> str | None:
     return digest
 
 
-def handover_provenance(service: FitService, ds_id: str, cols: Columns) -> dict[str, Any]:
-    """The model file's ``fitted_from`` block, as the command line writes it (``app.handover.provenance``)."""
+def handover_provenance(service: FitService, ds_id: str, cols: Columns, left_out=()) -> dict[str, Any]:
+    """The model file's ``fitted_from`` block, as the command line writes it (``app.handover.provenance``).
+
+    ``left_out``: the rows the analyst left out on purpose (``views_evidence.Exclusion``: line and
+    reason), recorded as ``rows_excluded`` with each row's reason.
+    """
     sel = service.selection(ds_id, cols)
+    excluded = None
+    if left_out:
+        reasons = "; ".join(f"line {e.line}: {e.reason or 'no reason given'}" for e in left_out)
+        excluded = {"lines": [int(e.line) for e in left_out], "reason": reasons}
     return handover.provenance(
         file_name=service.info(ds_id).name,
         sha256=dataset_sha256(service, ds_id),
@@ -184,4 +192,5 @@ def handover_provenance(service: FitService, ds_id: str, cols: Columns) -> dict[
         rows_used=sel.rows_used,
         rows_dropped=sel.rows_dropped,
         dropped=sel.dropped,
+        excluded=excluded,
     )

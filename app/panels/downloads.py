@@ -16,6 +16,7 @@ from fitting import DegreescopeError
 
 from .. import exports, figures, ids, text, views_calibration, views_model
 from ..service import FitService
+from ..views_evidence import exclusions_of
 from . import readback
 from ._common import PageConfig, notice_on_error, panel
 from .predict import typed_x
@@ -81,6 +82,7 @@ STATE = dict(
     bands=State(ids.BANDS, "value"),
     text=State(ids.PREDICT_INPUT, "value"),
     calibration=readback.REPORT_STATE,  # the read-back and standards panels' inputs, for the report
+    exclusions=State(ids.EXCLUSIONS, "data"),  # rows left out on purpose, with their reasons
 )
 
 
@@ -94,32 +96,34 @@ def _predictions_csv(service: FitService, key: dict, degree, text_in) -> str:
     return exports.predictions_csv(p, x_name=cols.x, y_name=cols.y, y_observed=sel.y)
 
 
-def _report(service: FitService, key: dict, degree, bands, calibration=None) -> str:
+def _report(service: FitService, key: dict, degree, bands, calibration=None, left_out=()) -> str:
     ds, cols, split = from_key(key)
     view = service.split_view(ds, cols, split)
     dv = service.degree_view(ds, cols, split, degree)
     model = views_model.handover_model(service, ds, cols, split, degree)
     fit_fig, err_fig = figures.fit_figure(view, dv, bands), figures.error_figure(view, dv)
     sections = views_calibration.report_sections(service, key, degree, **(calibration or {}))
-    return exports.html_report(service.info(ds), view, dv, model, fit_fig, err_fig, **sections)
+    rows = [{"line": e.line, "reason": e.reason or "no reason given"} for e in left_out]
+    return exports.html_report(service.info(ds), view, dv, model, fit_fig, err_fig, left_out=rows or None, **sections)
 
 
-def on_export(service: FitService, which: str, key, degree, bands, text_in, calibration=None) -> dict:
+def on_export(service: FitService, which: str, key, degree, bands, text_in, calibration=None, exclusions=None) -> dict:
     """The file for one download button: "model", "csv" or "report"; each holds the every-row fit."""
     if not key or degree is None:
         raise DegreescopeError("Nothing to export yet; wait for the charts.")
     ds, cols, split = from_key(key)
     model = views_model.handover_model(service, ds, cols, split, degree)
+    left_out = exclusions_of(exclusions, ds)
     stem = f"degreescope-{slug(cols.y)}-degree{model.fit.degree}"
     if which == "model":
-        content = exports.model_json(model.fit, views_model.handover_provenance(service, ds, cols))
+        content = exports.model_json(model.fit, views_model.handover_provenance(service, ds, cols, left_out))
         data = {"content": content, "filename": f"{stem}.model.json", "type": "application/json"}
     elif which == "csv":
         content = _predictions_csv(service, key, degree, text_in)
         data = {"content": content, "filename": f"{stem}.predictions.csv", "type": "text/csv"}
     else:
         data = {
-            "content": _report(service, key, degree, bands, calibration),
+            "content": _report(service, key, degree, bands, calibration, left_out),
             "filename": f"{stem}.report.html",
             "type": "text/html",
         }
@@ -129,11 +133,11 @@ def on_export(service: FitService, which: str, key, degree, bands, text_in, cali
 def register(app, service: FitService) -> None:
     """Wire the download buttons and the clientside chart images."""
 
-    def export_cb(n_report, n_model, n_csv, key, degree, bands, text, calibration=None):
+    def export_cb(n_report, n_model, n_csv, key, degree, bands, text, calibration=None, exclusions=None):
         which = BUTTONS.get(ctx.triggered_id)
         if which is None:
             return dict(download=no_update, notice=no_update)
-        return on_export(service, which, key, degree, bands, text, calibration)
+        return on_export(service, which, key, degree, bands, text, calibration, exclusions)
 
     app.callback(
         output=OUTPUT,
