@@ -125,8 +125,25 @@ def _wire(a) -> np.ndarray:
     return np.asarray(a, dtype=np.float32)
 
 
+def wrapped_text(text, width: int) -> str:
+    """``text`` for a plotly string, broken at spaces into lines of at most ``width`` characters
+    (a word longer than a line is cut with an ellipsis), so long column names stay inside the chart."""
+    lines: list[str] = []
+    for word in str(text).split():
+        word = word if len(word) <= width else word[: width - 1] + "…"
+        if lines and len(lines[-1]) + 1 + len(word) <= width:
+            lines[-1] += " " + word
+        else:
+            lines.append(word)
+    return "<br>".join(plot_text(line) for line in lines)
+
+
+TITLE_CHARS = 72  # a longer title is cut with an ellipsis: the axis titles carry the full names
+
+
 def fit_title(view: SplitView, degree: int) -> str:
-    return plot_text(f"Degree {degree} fit: {view.y_label} against {view.x_label}")
+    title = f"Degree {degree} fit: {view.y_label} against {view.x_label}"
+    return plot_text(title if len(title) <= TITLE_CHARS else title[: TITLE_CHARS - 1] + "…")
 
 
 def _point_traces(view: SplitView) -> list[dict]:
@@ -229,7 +246,7 @@ def fit_figure(view: SplitView, dv: DegreeView, bands=(CONFIDENCE,)) -> go.Figur
     """Points (training and test), the display fit, its bands and the extrapolation zones."""
     traces = _point_traces(view) + _curve_traces(view, dv, set(bands or ()))
     caption = text.degree_caption(view, dv)
-    layout = _base_layout(fit_title(view, dv.degree), plot_text(view.x_label), plot_text(view.y_label), caption)
+    layout = _base_layout(fit_title(view, dv.degree), plot_text(view.x_label), wrapped_text(view.y_label, 40), caption)
     # y range from the points (not from a wild curve), with room
     ys = np.concatenate([view.train_y, view.test_y])
     ylo, yhi = float(ys.min()), float(ys.max())

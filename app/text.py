@@ -72,8 +72,9 @@ def held_out_name(mode: str) -> str:
 def degree_caption(view: SplitView, dv: DegreeView) -> tuple[str, str]:
     """Two lines under both charts: the numbers at this degree, then the split."""
     name = held_out_name(view.split.mode)
+    weighted = "weighted " if view.columns.weights is not None else ""
     return (
-        f"Degree {dv.degree} · {name} RMSE {fmt_pm(dv.test_rmse, dv.test_rmse_se)}"
+        f"Degree {dv.degree} · {weighted}{name} RMSE {fmt_pm(dv.test_rmse, dv.test_rmse_se)}"
         f" · R² train {fmt_r2(dv.train_r2, 5)}, {name} {fmt_r2(dv.test_r2, 5)}",
         f"Split: {view.split_label} · {fmt_count(view.rows_used)} rows",
     )

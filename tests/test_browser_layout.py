@@ -188,11 +188,6 @@ def test_long_column_names_keep_tables_cells_and_captions_inside(browser, server
         ctx.close()
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="app/figures.py (charts): the fit chart's title and y-axis title run past the chart with long column "
-    "names; they need wrapping or shortening there",
-)
 def test_long_column_names_fit_inside_the_fit_chart(browser, server, tmp_path):
     ctx, page = open_long_names(browser, server, 1024, tmp_path)
     try:
