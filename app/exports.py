@@ -259,7 +259,7 @@ def html_report(
 <style>
 {_STYLE}</style></head><body>
 <h1>degreescope report</h1>
-<p>Dataset <strong>{e(info.name)}</strong>, made {e(when)}.</p>
+<p>Dataset <strong>{e(info.name)}</strong>, made {e(when)} by degreescope {e(handover.degreescope_version())}.</p>
 <p class="caution">{e(CAUTION_TEXT)}</p>
 <h2>Verdict</h2>
 <p>Recommended degree: <strong>{steady.recommended_degree}</strong> ({e(steady.recommendation_rule)} rule).

@@ -160,3 +160,17 @@ def test_html_report_takes_left_out_rows_as_a_list(sensor):
     page, _ = _report(*sensor, left_out=[{"lines": [8], "reason": "blank well"}, {"line": 30, "reason": None}])
     assert "<td>blank well</td><td>1</td><td>8</td>" in page
     assert "<td>no reason given</td><td>1</td><td>30</td>" in page
+
+
+def test_the_report_names_the_degreescope_version_that_made_it(fit_service):
+    # the hand-over's provenance: the same version string the model file records (app.handover)
+    from conftest import SAMPLES
+
+    from app import handover
+    from app.panels import charts, downloads
+
+    info = fit_service.load_path(SAMPLES / "cubic_small_noisy.csv")
+    st = info.to_store()
+    key = charts.on_split(fit_service, st, st["x"], st["y"], None, None, "holdout", 25, 10, 0)["split_key"]
+    report = downloads.on_export(fit_service, "report", key, 3, [], "")["download"]["content"]
+    assert f"by degreescope {handover.degreescope_version()}" in report
