@@ -113,7 +113,7 @@ def chart_title(page, chart_id: str):
     return page.evaluate(JS_TITLE, f"#{chart_id}")
 
 
-def wait_for_title(page, chart_id: str, contains: str, timeout: float = 15_000) -> None:
+def wait_for_title(page, chart_id: str, contains: str, timeout: float = 40_000) -> None:
     page.wait_for_function(
         """([sel, txt]) => { const gd = document.querySelector(sel + ' .js-plotly-plot');
             return !!(gd && gd._fullLayout && gd._fullLayout.title && gd._fullLayout.title.text.includes(txt)); }""",
