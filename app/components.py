@@ -63,7 +63,7 @@ def coefficient_table(model: ModelView) -> html.Table:
         )
         for r in model.coefficient_rows
     ]
-    return _table(("term", "coefficient", "std. error", "95 % CI", "unit"), rows)
+    return _table(("term", "coefficient", "std. error", f"{text.level_text(model.level)} CI", "unit"), rows)
 
 
 def stats_table(model: ModelView) -> html.Table:
@@ -163,7 +163,8 @@ def model_stats_table(model: ModelView, y_scale: float = 0.0, mode: str = "holdo
 
 
 def model_coefficient_table(model: ModelView) -> html.Table:
-    """Coefficients with their standard errors, 95 % intervals and units; the constant is named "constant"."""
+    """Coefficients with their standard errors, intervals (at ``model.level``) and units; the constant is
+    named "constant"."""
     from ._format import term_name
 
     rows = [
@@ -178,7 +179,8 @@ def model_coefficient_table(model: ModelView) -> html.Table:
         )
         for r in model.coefficient_rows
     ]
-    return _table(("term", "coefficient", "std. error", "95 % CI", "unit"), rows, "table coef-table")
+    head = ("term", "coefficient", "std. error", f"{text.level_text(model.level)} CI", "unit")
+    return _table(head, rows, "table coef-table")
 
 
 def handover_prediction_table(p: PredictionView, head: tuple[str, ...]) -> html.Table | html.Div:

@@ -163,6 +163,7 @@ SPLIT_KEY_RECORD = record(
         "folds": WHOLE,
         "seed": WHOLE,
         "excluded": WHOLES,  # file lines the analyst left out
+        "weighting": optional(TEXT),  # the named weighting; the panels check the name
     },
     required=("dataset", "x", "y", "mode", "holdout", "folds", "seed"),
 )

@@ -81,6 +81,7 @@ def settings_rows(view: SplitView, degree: int) -> list[list[str]]:
         ["x column", c.x],
         ["y column", c.y],
         ["weights column", c.weights or "none"],
+        ["weighting", c.weighting],
         ["group column", c.group or "none"],
         ["degree", str(degree)],
         ["split shown", view.split_label],

@@ -31,7 +31,7 @@ import math
 import re
 import threading
 from collections import OrderedDict
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Callable, NamedTuple
 
@@ -61,6 +61,7 @@ __all__ = [
     "DIGEST_CHARS",
     "MAX_PREDICT_VALUES",
     "MAX_PREDICT_CHARS",
+    "check_weighting_choice",
     "clamp_degree",
     "decode_upload",
     "parse_x_values",
@@ -85,13 +86,19 @@ PASTED_NAME = "pasted table"
 
 @dataclass(frozen=True)
 class Columns:
-    """The columns a fit uses: x, y and the optional weights and group columns."""
+    """The columns a fit uses: x, y and the optional weights and group columns, and the page's weighting.
+
+    ``weighting`` is a named rule (``fitting.WEIGHTINGS``: "none", "1/x", "1/x2", "1/y", "1/y2"):
+    under a rule other than "none" the selection's weights are the rule's, and a weights column
+    is refused as well.
+    """
 
     x: str
     y: str
     weights: str | None = None
     group: str | None = None
     excluded: tuple[int, ...] = ()  # file lines the analyst left out (app/views_evidence.py)
+    weighting: str = "none"
 
 
 class Refusal(NamedTuple):
@@ -301,6 +308,7 @@ class ModelView:
     test_rmse: float
     test_rmse_se: float
     test_r2: float
+    level: float = 0.95  # the coefficients' interval level, a fraction (``t_quantile`` is its quantile)
 
     @property
     def equation(self) -> str:
@@ -309,7 +317,7 @@ class ModelView:
 
     @property
     def coefficient_rows(self) -> list[dict]:
-        """One dict per power: term, power, coefficient, se, ci_lo, ci_hi (Student's t, 95 %) and unit."""
+        """One dict per power: term, power, coefficient, se, ci_lo, ci_hi (Student's t at ``level``) and unit."""
         q = self.t_quantile
         rows = []
         for k, (c, se) in enumerate(zip(self.fit.coefficients, self.fit.standard_errors, strict=True)):
@@ -340,7 +348,7 @@ class ModelView:
 
 @dataclass(frozen=True, eq=False)
 class PredictionView:
-    """Predictions and 95 % bands at typed (or data) x values, and which lie outside the fitted range."""
+    """Predictions and bands at typed (or data) x values, and which lie outside the fitted range."""
 
     x: np.ndarray
     y: np.ndarray
@@ -350,6 +358,7 @@ class PredictionView:
     pred_hi: np.ndarray
     outside: np.ndarray
     domain: tuple[float, float]
+    level: float = 0.95  # the bands' level, a fraction
 
 
 # ----------------------------------------------------------------------------
@@ -444,6 +453,14 @@ def parse_x_values(text_in: str | None, decimal: str = ".") -> np.ndarray:
             raise FitError(f"{text.echo(p)} is not {_what_is_wanted(token)}; type x values like {example}.")
         out.append(v)
     return np.asarray(out, dtype=float)
+
+
+def check_weighting_choice(value) -> str:
+    """The name of a named weighting (``fitting.WEIGHTINGS``; empty: "none"); FitError for an unknown one."""
+    rule = value or "none"
+    if not isinstance(rule, str) or rule not in fitting.WEIGHTINGS:
+        raise FitError(text.unknown_weighting(rule, tuple(fitting.WEIGHTINGS)))
+    return rule
 
 
 def clamp_degree(degree, max_degree: int) -> int:
@@ -587,19 +604,28 @@ class FitService:
         return info
 
     def selection(self, ds_id: str, cols: Columns) -> Selection:
-        """The rows usable with these columns (cached); ColumnError for a clash, FitError below 3 rows."""
+        """The rows usable with these columns (cached); ColumnError for a clash, FitError below 3 rows.
+
+        Under a named weighting (``cols.weighting``) the weights are the rule's
+        (``fitting.weights_for``); rows where the rule is undefined are refused by their line numbers.
+        """
         stored = self.store.get(ds_id)  # raises DatasetGone when evicted
         if cols.x == cols.y:
             raise fitting.ColumnError("x and y are the same column; pick two different columns.")
         for role, c in (("weights", cols.weights), ("group", cols.group)):
             if c is not None and c in (cols.x, cols.y):
                 raise fitting.ColumnError(f"The {role} column cannot also be x or y; pick another one.")
+        rule = check_weighting_choice(cols.weighting)
+        if rule != "none" and cols.weights is not None:
+            raise FitError(text.weights_and_rule(cols.weights, rule))
 
         def make():
             sel = stored.table.select(cols.x, cols.y, weights=cols.weights, group=cols.group)
             sel = exclude_lines(sel, cols.excluded)
             if sel.rows_used < 3:
                 raise FitError(f"Only {sel.rows_used} usable rows with these columns; a fit needs at least 3.")
+            if rule != "none":
+                sel = replace(sel, weights=fitting.weights_for(rule, sel.x, sel.y, rows=sel.line_numbers))
             return sel
 
         return self._selections.get_or_make((ds_id, cols), make)
@@ -671,16 +697,22 @@ class FitService:
 
     # -- one degree -----------------------------------------------------------------
     def degree_view(self, ds_id: str, cols: Columns, split: SplitSettings, degree) -> DegreeView:
-        """Curve, bands and the chosen split's numbers at one degree: no pass over the rows."""
+        """Curve, bands and the chosen split's numbers at one degree: no pass over the rows.
+
+        Under a named weighting the prediction band uses the weight the rule gives at each x of
+        the grid (variance s²/w(x0)); with a weights column or none, a new reading has weight 1.
+        """
         view = self.split_view(ds_id, cols, split)
         d = clamp_degree(degree, view.max_degree)
         sweep = view.sweep
+        curve = sweep.curve(d, view.grid)
+        weight = None if cols.weighting == "none" else fitting.weight_at(cols.weighting, view.grid, curve)
         clo, chi = sweep.band(d, view.grid, "confidence", 0.95)
-        plo, phi = sweep.band(d, view.grid, "prediction", 0.95)
+        plo, phi = sweep.band(d, view.grid, "prediction", 0.95, weight=weight)
         i = sweep.index(d)
         return DegreeView(
             degree=d,
-            curve=sweep.curve(d, view.grid),
+            curve=curve,
             conf_lo=clo,
             conf_hi=chi,
             pred_lo=plo,
@@ -704,11 +736,13 @@ class FitService:
         sel = self.selection(ds_id, cols)
         mask = view.sweep.test_mask
         keep = np.ones(sel.x.size, dtype=bool) if mask is None else ~mask
+        named = cols.weighting != "none"  # the rule itself, so that intervals at a new x use its weight there
         fit = fitting.fit_polynomial(
             sel.x[keep],
             sel.y[keep],
             d,
-            weights=None if sel.weights is None else sel.weights[keep],
+            weights=None if sel.weights is None or named else sel.weights[keep],
+            weighting=cols.weighting if named else None,
             x_name=sel.x_name,
             y_name=sel.y_name,
             x_unit=sel.x_unit,

@@ -69,14 +69,29 @@ def held_out_name(mode: str) -> str:
     return "CV test" if mode == "kfold" else "test"
 
 
+def weighting_name(rule: str) -> str:
+    """A named weighting as written on screen: "1/x2" -> "1/x²"."""
+    return str(rule).replace("2", "²")
+
+
+def weighting_in_force(columns) -> str:
+    """Which weighting the fits use, short: "weighting 1/x²", "weights column 'w'", or "" for none."""
+    if columns.weights is not None:
+        return f"weights column {columns.weights!r}"
+    rule = getattr(columns, "weighting", "none")
+    return "" if rule == "none" else f"weighting {weighting_name(rule)}"
+
+
 def degree_caption(view: SplitView, dv: DegreeView) -> tuple[str, str]:
-    """Two lines under both charts: the numbers at this degree, then the split."""
+    """Two lines under both charts: the numbers at this degree, then the split (and a weighting in force)."""
     name = held_out_name(view.split.mode)
-    weighted = "weighted " if view.columns.weights is not None else ""
+    used = weighting_in_force(view.columns)
+    weighted = "weighted " if used else ""
+    rule = f" · {used}" if used and view.columns.weights is None else ""
     return (
         f"Degree {dv.degree} · {weighted}{name} RMSE {fmt_pm(dv.test_rmse, dv.test_rmse_se)}"
         f" · R² train {fmt_r2(dv.train_r2, 5)}, {name} {fmt_r2(dv.test_r2, 5)}",
-        f"Split: {view.split_label} · {fmt_count(view.rows_used)} rows",
+        f"Split: {view.split_label} · {fmt_count(view.rows_used)} rows{rule}",
     )
 
 
@@ -91,10 +106,12 @@ def recommended(view: SplitView) -> str:
 
 def measure_note(view: SplitView) -> str:
     """What the recommendation and the overfitting warning rest on, and what the charts show."""
+    used = weighting_in_force(view.columns)
+    weighted = f" Every fit and error on this page is weighted ({used})." if used else ""
     return (
         f"The recommendation and the overfitting warning rest on {view.steady_label} of all "
         f"{fmt_count(view.rows_used)} rows ({view.steady.recommendation_rule} rule), whatever split the charts "
-        f"show. The charts show the {view.split_label}."
+        f"show. The charts show the {view.split_label}.{weighted}"
     )
 
 
@@ -146,7 +163,8 @@ def model_note(model: ModelView) -> str:
     """The sentence under the model card: rows, basis, the t quantile and the valid x range."""
     f = model.fit
     note = (
-        f"Fitted on {fitted_on(model)}. Power basis in the original units; 95 % intervals use Student's t with "
+        f"Fitted on {fitted_on(model)}. Power basis in the original units; {level_text(model.level)} intervals "
+        "use Student's t with "
         f"{f.dof} degrees of freedom (t = {fmt_number(model.t_quantile, 5)}). Valid x range: "
         f"{fmt_number(f.domain[0], 6)} to {fmt_number(f.domain[1], 6)}."
     )
@@ -325,7 +343,8 @@ def handover_note(model: ModelView) -> str:
     """The sentence under the model card: basis, the t quantile, the valid x range, and the fit's own warnings."""
     f = model.fit
     note = (
-        f"Power basis in the original units; 95 % intervals use Student's t with {f.dof} degrees of freedom "
+        f"Power basis in the original units; {level_text(model.level)} intervals use Student's t with "
+        f"{f.dof} degrees of freedom "
         f"(t = {fmt_number(model.t_quantile, 5)}). Valid x range: {fmt_number(f.domain[0], 6)} to "
         f"{fmt_number(f.domain[1], 6)}."
     )
@@ -353,15 +372,22 @@ def outside_flag_short(outside: bool) -> str:
     return "outside: extrapolation" if outside else ""
 
 
-def prediction_head(x_name: str, x_unit: str | None, y_name: str, y_unit: str | None) -> tuple[str, ...]:
-    """The prediction table's header: the column names with their units once."""
+def level_text(level: float) -> str:
+    """An interval level (a fraction) in per cent: 0.95 -> "95 %", 0.999 -> "99.9 %"."""
+    return f"{round(level * 100, 6):g} %"
+
+
+def prediction_head(
+    x_name: str, x_unit: str | None, y_name: str, y_unit: str | None, level: float = 0.95
+) -> tuple[str, ...]:
+    """The prediction table's header: the column names with their units once, the intervals' level."""
     from ._format import label_with_unit
 
     return (
         label_with_unit(x_name, x_unit),
         f"predicted {label_with_unit(y_name, y_unit)}",
-        "95 % confidence",
-        "95 % prediction",
+        f"{level_text(level)} confidence",
+        f"{level_text(level)} prediction",
         "range",
     )
 
@@ -651,7 +677,7 @@ def bad_tolerance(what: str, value) -> str:
 def weights_and_rule(column: str, rule: str) -> str:
     return (
         f"The weights column {column!r} is chosen, so the named weighting {rule} cannot be used as well; "
-        "choose the weighting “none” here, or clear the weights column."
+        "choose the weighting “none” in the Columns panel, or clear the weights column."
     )
 
 

@@ -3,11 +3,11 @@
 Plain functions of the ``FitService`` and the page's settings; the panels
 (``app/panels/readback.py``, ``app/panels/standards.py``) turn their results into HTML.
 
-The fit read through is the model a user takes away at the degree on screen: the precise fit
-(``fitting.fit_polynomial``) on every usable row of the chosen columns, whatever split the
-charts show, with the named weighting the user picked (or the weights column). Without a named
-weighting it is ``views_model.handover_fit`` itself, the fit the model card and the downloads
-hand over; with one it is cached here per (service, dataset, columns, degree, weighting). The engine does the work:
+The fit read through is the model a user takes away at the degree on screen:
+``views_model.handover_fit``, the precise fit (``fitting.fit_polynomial``) on every usable row
+of the chosen columns, whatever split the charts show, with the page's weighting (the named
+rule of the Columns panel, ``Columns.weighting``, or the weights column). It is the fit the
+model card and the downloads hand over. The engine does the work:
 ``fitting.read_back`` (NIST/SEMATECH e-Handbook 4.5.2.1 calibration interval, u(x0) by the
 delta method), ``fitting.back_calculate`` (FDA 2018 / ICH M10 acceptance by default) and
 ``fitting.compare_weightings`` (Almeida et al. 2002).
@@ -20,7 +20,7 @@ import re
 import threading
 import weakref
 from collections import OrderedDict
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -28,7 +28,7 @@ import fitting
 from fitting import BackCalculation, FitError, PolynomialFit, ReadBack, WeightingComparison
 
 from . import text, views_model
-from .service import Columns, FitService, SplitSettings, clamp_degree
+from .service import Columns, FitService, SplitSettings, check_weighting_choice, clamp_degree
 
 __all__ = [
     "CalibrationModel",
@@ -144,16 +144,8 @@ def check_tolerance(value, default: float, what: str) -> float:
     return v
 
 
-def check_weighting_choice(value) -> str:
-    """The canonical name of a named weighting (empty: "none"); FitError for an unknown one."""
-    rule = value or "none"
-    if rule not in fitting.WEIGHTINGS:
-        raise FitError(text.unknown_weighting(rule, tuple(fitting.WEIGHTINGS)))
-    return str(rule)
-
-
 # ----------------------------------------------------------------------------
-# the fit read through (every usable row, the weighting chosen), cached per service
+# the fit read through (every usable row, the page's weighting), cached per service
 
 
 @dataclass(frozen=True, eq=False)
@@ -207,33 +199,24 @@ def _degree(service: FitService, ds: str, cols: Columns, split: SplitSettings, d
     return clamp_degree(degree, service.split_view(ds, cols, split).max_degree)
 
 
-def calibration_fit(service: FitService, ds: str, cols: Columns, split: SplitSettings, degree, weighting=None):
-    """The precise fit on every usable row at ``degree`` with ``weighting`` (cached): a CalibrationModel.
+def calibration_fit(service: FitService, ds: str, cols: Columns, split: SplitSettings, degree) -> CalibrationModel:
+    """The hand-over fit on every usable row at ``degree`` with the page's weighting (cached): a CalibrationModel.
 
-    A named weighting undefined on some rows (x = 0 under 1/x, y ≤ 0 under 1/y) is refused with
-    the file's line numbers of those rows; a named weighting with a weights column is refused.
+    The weighting is ``cols.weighting`` (or the weights column). The service's selection refuses a
+    named weighting undefined on some rows (x = 0 under 1/x, y ≤ 0 under 1/y) with the file's line
+    numbers of those rows, and a named weighting together with a weights column.
     """
-    rule = check_weighting_choice(weighting)
     sel = service.selection(ds, cols)  # the owner and eviction check comes first
     d = _degree(service, ds, cols, split, degree)
-    if rule != "none" and sel.weights is not None:
-        raise FitError(text.weights_and_rule(str(cols.weights), rule))
 
     def make() -> CalibrationModel:
-        if rule == "none":  # the hand-over model itself, the one the model card and the downloads show
-            fit = views_model.handover_fit(service, ds, cols, d)
-        else:
-            fitting.weights_for(rule, sel.x, sel.y, rows=sel.line_numbers)  # names the lines it is undefined on
-            fit = fitting.fit_polynomial(
-                sel.x, sel.y, d, weighting=rule,
-                x_name=sel.x_name, y_name=sel.y_name, x_unit=sel.x_unit, y_unit=sel.y_unit,
-            )  # fmt: skip
-        used = "column" if sel.weights is not None else rule
+        fit = views_model.handover_fit(service, ds, cols, d)  # the model the card and the downloads show
+        used = "column" if cols.weights is not None else cols.weighting
         x_label = text.axis_label(sel.x_name, sel.x_unit)
         y_label = text.axis_label(sel.y_name, sel.y_unit)
         return CalibrationModel(fit, used, sel.x, sel.y, sel.line_numbers, x_label, y_label)
 
-    return _cache(service, "fit").get_or_make((ds, cols, d, rule), make)
+    return _cache(service, "fit").get_or_make((ds, cols, d), make)
 
 
 # ----------------------------------------------------------------------------
@@ -259,7 +242,8 @@ def weighting_comparison(service: FitService, ds: str, cols: Columns, model: Cal
     if model.x.size > MAX_STANDARDS:
         raise FitError(text.too_many_standards(model.x.size, MAX_STANDARDS))
     d = model.fit.degree
-    return _cache(service, "weightings").get_or_make((ds, cols, d), lambda: _compare(model, d))
+    key = (ds, replace(cols, weighting="none"), d)  # the same standards whatever rule is in force
+    return _cache(service, "weightings").get_or_make(key, lambda: _compare(model, d))
 
 
 def _compare(model: CalibrationModel, degree: int) -> WeightingComparison:
@@ -338,15 +322,15 @@ def report_sections(
     readings=None,
     count=None,
     level=None,
-    weighting=None,
     tolerance=None,
     lowest_tolerance=None,
 ) -> dict:
     """Keyword arguments for ``exports.html_report``: ``read_back`` and ``back_calculation`` as on screen.
 
     Takes the values of the calibration panels' inputs (ids.READBACK_INPUT, READBACK_COUNT,
-    READBACK_LEVEL, WEIGHTING, TOLERANCE, LOWEST_TOLERANCE). A section whose inputs the page
-    refused (its panel shows why) or that has nothing to show (no readings typed) is left out.
+    READBACK_LEVEL, TOLERANCE, LOWEST_TOLERANCE); the weighting is the settings record's. A
+    section whose inputs the page refused (its panel shows why) or that has nothing to show (no
+    readings typed) is left out.
     """
     from .panels.settings import from_key
 
@@ -355,7 +339,7 @@ def report_sections(
     ds, cols, split = from_key(key)
     out: dict = {}
     try:
-        model = calibration_fit(service, ds, cols, split, degree, weighting)
+        model = calibration_fit(service, ds, cols, split, degree)
     except FitError:
         return out
     try:

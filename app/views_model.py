@@ -71,15 +71,22 @@ def _cache(service: FitService) -> _Cache:
 
 
 def handover_fit(service: FitService, ds_id: str, cols: Columns, degree: int) -> PolynomialFit:
-    """The precise fit of ``degree`` on every usable row (cached); the store's owner check runs first."""
+    """The precise fit of ``degree`` on every usable row (cached); the store's owner check runs first.
+
+    Under a named weighting (``cols.weighting``) the fit is made with the rule itself, so the model
+    records it and its intervals at a new x use the variance s²/w(x0); with a weights column, the
+    column's weights.
+    """
     sel = service.selection(ds_id, cols)  # raises DatasetGone for another session's or an evicted id
+    named = cols.weighting != "none"
 
     def make() -> PolynomialFit:
         return fitting.fit_polynomial(
             sel.x,
             sel.y,
             int(degree),
-            weights=sel.weights,
+            weights=None if named else sel.weights,
+            weighting=cols.weighting if named else None,
             x_name=sel.x_name,
             y_name=sel.y_name,
             x_unit=sel.x_unit,
@@ -89,16 +96,18 @@ def handover_fit(service: FitService, ds_id: str, cols: Columns, degree: int) ->
     return _cache(service).get_or_make((ds_id, cols, int(degree)), make)
 
 
-def _t95(fit: PolynomialFit) -> float:
-    """Student's t quantile for 95 % two-sided intervals (NaN without residual degrees of freedom)."""
-    return float(stdtrit(fit.dof, 0.975)) if fit.dof > 0 else float("nan")
+def _t_quantile(fit: PolynomialFit, level: float = 0.95) -> float:
+    """Student's t quantile for two-sided intervals at ``level`` (NaN without residual degrees of freedom)."""
+    return float(stdtrit(fit.dof, 0.5 + level / 2)) if fit.dof > 0 else float("nan")
 
 
-def handover_model(service: FitService, ds_id: str, cols: Columns, split: SplitSettings, degree) -> ModelView:
+def handover_model(
+    service: FitService, ds_id: str, cols: Columns, split: SplitSettings, degree, level: float = 0.95
+) -> ModelView:
     """The model card's view: the every-row fit, its residuals at the chart's points, and the split's test numbers.
 
     The test numbers (held-out RMSE ± SE, R²) are the chosen split's at this degree: the same
-    figures the chart captions show.
+    figures the chart captions show. ``level`` (a fraction) sets the coefficients' intervals.
     """
     view = service.split_view(ds_id, cols, split)
     d = clamp_degree(degree, view.max_degree)
@@ -109,7 +118,7 @@ def handover_model(service: FitService, ds_id: str, cols: Columns, split: SplitS
     i = sweep.index(d)
     return ModelView(
         fit=fit,
-        t_quantile=_t95(fit),
+        t_quantile=_t_quantile(fit, level),
         residual_x=rx,
         residuals=ry - fit.predict(rx),
         residual_sampled=view.sampled,
@@ -120,6 +129,7 @@ def handover_model(service: FitService, ds_id: str, cols: Columns, split: SplitS
         test_rmse=float(sweep.test_rmse[i]),
         test_rmse_se=float(sweep.test_rmse_se[i]) if sweep.n_splits > 1 else float("nan"),
         test_r2=float(sweep.test_r2[i]),
+        level=float(level),
     )
 
 
@@ -132,10 +142,10 @@ def residual_view(view: SplitView) -> SplitView:
     return replace(view, train_x=x, train_y=y, test_x=x[:0], test_y=y[:0], has_test_points=False)
 
 
-def _prediction_view(fit: PolynomialFit, x) -> PredictionView:
+def _prediction_view(fit: PolynomialFit, x, level: float = 0.95) -> PredictionView:
     x = np.asarray(x, dtype=float)
-    clo, chi = fit.band(x, "confidence", 0.95)
-    plo, phi = fit.band(x, "prediction", 0.95)
+    clo, chi = fit.band(x, "confidence", level)
+    plo, phi = fit.band(x, "prediction", level)
     return PredictionView(
         x=x,
         y=fit.predict(x),
@@ -145,12 +155,15 @@ def _prediction_view(fit: PolynomialFit, x) -> PredictionView:
         pred_hi=phi,
         outside=fit.outside_domain(x),
         domain=fit.domain,
+        level=float(level),
     )
 
 
-def handover_predict(service: FitService, ds_id: str, cols: Columns, split: SplitSettings, degree, x) -> PredictionView:
-    """Predictions and 95 % confidence and prediction bands of the hand-over fit at ``x``."""
-    return _prediction_view(handover_model(service, ds_id, cols, split, degree).fit, x)
+def handover_predict(
+    service: FitService, ds_id: str, cols: Columns, split: SplitSettings, degree, x, level: float = 0.95
+) -> PredictionView:
+    """Predictions and confidence and prediction bands (at ``level``, 95 % by default) of the hand-over fit at ``x``."""
+    return _prediction_view(handover_model(service, ds_id, cols, split, degree).fit, x, level)
 
 
 def handover_row_predictions(

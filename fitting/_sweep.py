@@ -204,8 +204,14 @@ class DegreeSweep:
         coef, _, _, _ = self._display_parts(degree)
         return _basis.chebyshev_values(_basis.to_window(x, self.offset, self.scale), coef)
 
-    def band(self, degree: int, x: ArrayLike, kind: str = "confidence", level: float = 0.95):
-        """(lower, upper) confidence or prediction band of the display fit (double precision)."""
+    def band(self, degree: int, x: ArrayLike, kind: str = "confidence", level: float = 0.95, weight=None):
+        """(lower, upper) confidence or prediction band of the display fit (double precision).
+
+        ``weight`` (optional, one per x or a scalar): the weight (inverse variance) of a new reading
+        at each x, as a named weighting rule gives it (``weight_at``); the prediction band then uses
+        the variance s²/w(x0) for the new reading. Without it a new reading has weight 1. A NaN
+        weight (the rule is undefined there) gives a NaN band at that x.
+        """
         coef, r, sd, dof = self._display_parts(degree)
         x = np.asarray(x, dtype=np.float64)
         t = _basis.to_window(x, self.offset, self.scale)
@@ -217,6 +223,10 @@ class DegreeSweep:
         u = solve_triangular(r, a.T, trans="T")
         se = sd * np.sqrt(np.sum(u * u, axis=0))
         if kind == "prediction":
+            if weight is not None:
+                w = np.asarray(weight, dtype=np.float64)
+                with np.errstate(divide="ignore", invalid="ignore"):
+                    sd = np.where(np.isfinite(w) & (w > 0), sd / np.sqrt(w), np.nan)
             se = np.hypot(se, sd)  # no square leaves double precision
         elif kind != "confidence":
             raise FitError(f'Interval kind must be "confidence" or "prediction", not {kind!r}.')

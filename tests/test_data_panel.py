@@ -104,7 +104,7 @@ def test_a_view_of_a_file_not_loaded_waits_for_it_then_applies(sensor):
     )
     assert out["bands"] == ["confidence", "prediction"] and out["level"] == 95.0
     assert out["pending"] is None and "Restored" in out["view_notice"]
-    assert out["seen"] == [up["id"], "set point (C)", "bending", None, "batch"]  # the URL's degree is kept
+    assert out["seen"] == [up["id"], "set point (C)", "bending", None, "batch", "none"]  # the URL's degree is kept
 
 
 def test_a_view_whose_columns_are_missing_says_so(sensor):
@@ -156,7 +156,7 @@ def test_new_columns_start_at_their_recommendation_a_hand_degree_stays_with_its_
     straight = run_split(fit_service, up, x="set point (C)", y="straight")
     key1 = straight["split_key"]
     first = data.on_selection(fit_service, key1, straight["degree"], None)
-    assert first["seen"] == [up["id"], "set point (C)", "straight", None, None]
+    assert first["seen"] == [up["id"], "set point (C)", "straight", None, None, "none"]
     rec1 = int(straight["recommended_degree"].split()[-1])
     # the user drags to 6 with the same columns: kept
     assert data.on_selection(fit_service, key1, 6, first["seen"])["degree"] is no_update

@@ -12,6 +12,7 @@ References, named beside each check:
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 
 import nist
 import numpy as np
@@ -104,7 +105,7 @@ def test_pontius_read_back_uses_every_row_and_matches_statsmodels(pontius, k, le
     with statsmodels' covariance), read from the chart's marks and the table.
     """
     service, key, d = pontius
-    out = readback.on_readback(service, "0.9; 1.45", k, level, "none", key, 2)
+    out = readback.on_readback(service, "0.9; 1.45", k, level, key, 2)
     u = d.x / SCALE
     ref = Reference(sm.OLS(d.y, np.vander(u, 3, increasing=True)).fit())  # all 40 rows
     table = page_text(out["result"])
@@ -128,7 +129,7 @@ def test_the_degree_on_screen_is_the_degree_read_through(pontius):
     service, key, d = pontius
     u = d.x / SCALE
     for degree in (1, 2):
-        out = readback.on_readback(service, "1.2", 1, 95, "none", key, degree)
+        out = readback.on_readback(service, "1.2", 1, 95, key, degree)
         ref = Reference(sm.OLS(d.y, np.vander(u, degree + 1, increasing=True)).fit())
         x0 = ref.read(1.2, 1, u.min(), u.max())[0] * SCALE
         (line,) = marks_of(out["marks"], "-x")
@@ -138,11 +139,11 @@ def test_the_degree_on_screen_is_the_degree_read_through(pontius):
 
 
 def test_named_weighting_reaches_the_read_back(pontius):
-    """Weighting 1/x² from the standards panel: x0 and u(x0) against statsmodels WLS with w = 1/x², and
-    the variance of the reading at x0 taken as s²/(k·w(x0)) (CALIBRATION.md section 4)."""
+    """Weighting 1/x² (the page's weighting, in the settings record): x0 and u(x0) against statsmodels WLS
+    with w = 1/x², and the variance of the reading at x0 taken as s²/(k·w(x0)) (CALIBRATION.md section 4)."""
     service, key, d = pontius
     u = d.x / SCALE
-    out = readback.on_readback(service, "1.45", 2, 95, "1/x2", key, 2)
+    out = readback.on_readback(service, "1.45", 2, 95, dict(key, weighting="1/x2"), 2)
     res = sm.WLS(d.y, np.vander(u, 3, increasing=True), weights=1.0 / u**2).fit()
     ref = Reference(res, weight=lambda v: 1.0 / v**2)
     x0, xl, xu, ux = (v * SCALE for v in ref.read(1.45, 2, u.min(), u.max()))
@@ -184,7 +185,7 @@ def test_length_is_checked_before_the_text_is_split(monkeypatch):
 def test_out_of_range_k_and_level_are_said_in_the_panel(pontius, count, level, message):
     service, key, _ = pontius
     with pytest.raises(FitError, match=message):
-        readback.on_readback(service, "1.2", count, level, "none", key, 2)
+        readback.on_readback(service, "1.2", count, level, key, 2)
     out = readback._on_error(FitError(text.bad_count(count)))
     assert isinstance(out["result"], html.P) and "error" in out["result"].className
     assert out["marks"]["shapes"] == []  # the chart loses this panel's marks
@@ -196,7 +197,7 @@ def test_every_warning_in_words_for_a_curve_that_turns(fit_service):
     x = np.repeat(np.arange(0.0, 11.0), 2)
     y = 40.0 - (x - 6.0) ** 2 + np.tile([0.3, -0.3], 11) + 0.05 * x
     key = key_for(fit_service, csv_bytes("dose,signal", x, y), "hump.csv", mode="kfold")
-    out = readback.on_readback(fit_service, "30; 80; 4.5", 1, 95, "none", key, 2)
+    out = readback.on_readback(fit_service, "30; 80; 4.5", 1, 95, key, 2)
     words = page_text(out["result"])
     b = sm.OLS(y, np.vander(x, 3, increasing=True)).fit().params
     vertex = -b[1] / (2 * b[2])
@@ -209,9 +210,9 @@ def test_every_warning_in_words_for_a_curve_that_turns(fit_service):
 
 def test_no_readings_no_marks_and_a_prompt(pontius):
     service, key, _ = pontius
-    out = readback.on_readback(service, "  ", 1, 95, "none", key, 2)
+    out = readback.on_readback(service, "  ", 1, 95, key, 2)
     assert out["marks"]["shapes"] == [] and text.READBACK_EMPTY in page_text(out["result"])
-    out = readback.on_readback(service, "1", 1, 95, "none", None, None)
+    out = readback.on_readback(service, "1", 1, 95, None, None)
     assert out["marks"]["shapes"] == []
 
 
@@ -227,9 +228,9 @@ def test_undefined_weighting_is_refused_with_its_file_lines(fit_service):
     """1/x and 1/x² are undefined at the blank (x = 0): the message names its line in the file (line 2)."""
     key = key_for(fit_service, csv_bytes("conc,area", ASSAY_X, ASSAY_Y), "assay.csv", mode="kfold")
     with pytest.raises(FitError, match=r"undefined where x = 0: 1 line \(line 2\)"):
-        standards.on_standards(fit_service, "1/x2", 15, 20, key, 1)
+        standards.on_standards(fit_service, 15, 20, dict(key, weighting="1/x2"), 1)
     with pytest.raises(FitError, match=r"undefined where x = 0: 1 line \(line 2\)"):
-        readback.on_readback(fit_service, "1", 1, 95, "1/x", key, 1)
+        readback.on_readback(fit_service, "1", 1, 95, dict(key, weighting="1/x"), 1)
     with pytest.raises(FitError, match="Unknown weighting"):
         cal.check_weighting_choice("1/z")
 
@@ -238,8 +239,8 @@ def test_weights_column_and_a_named_rule_are_not_both_used(fit_service):
     data = b"conc,area,w\n" + b"".join(f"{a},{b},1\n".encode() for a, b in zip(ASSAY_X, ASSAY_Y, strict=True))
     key = key_for(fit_service, data, "w.csv", mode="kfold", weights="w")
     with pytest.raises(FitError, match="weights column 'w' is chosen"):
-        standards.on_standards(fit_service, "1/y", 15, 20, key, 1)
-    out = standards.on_standards(fit_service, "none", 15, 20, key, 1)
+        standards.on_standards(fit_service, 15, 20, dict(key, weighting="1/y"), 1)
+    out = standards.on_standards(fit_service, 15, 20, key, 1)
     assert "weights column" in out["note"].children and "'w' is not part of it" in page_text(out["comparison"])
 
 
@@ -265,7 +266,7 @@ def test_standards_table_against_statsmodels_and_the_acceptance_counts(fit_servi
     """Invented assay, linear: x back and error % per standard (statsmodels OLS + brentq); pass/fail at
     ±15 % and ±20 % at the lowest level (FDA 2018 / ICH M10 defaults); the blank is not judged."""
     key = key_for(fit_service, csv_bytes("conc,area", ASSAY_X, ASSAY_Y), "assay.csv", mode="kfold")
-    out = standards.on_standards(fit_service, "none", None, None, key, 1)
+    out = standards.on_standards(fit_service, None, None, key, 1)
     rows = out["table"].children[1].children
     ref = statsmodels_back(ASSAY_X, ASSAY_Y, 1)
     passing = 0
@@ -289,8 +290,8 @@ def test_standards_table_against_statsmodels_and_the_acceptance_counts(fit_servi
 
 def test_a_tighter_tolerance_fails_more_and_marks_them(fit_service):
     key = key_for(fit_service, csv_bytes("conc,area", ASSAY_X, ASSAY_Y), "assay.csv", mode="kfold")
-    loose = standards.on_standards(fit_service, "none", 15, 20, key, 1)
-    tight = standards.on_standards(fit_service, "none", 1, 1, key, 1)
+    loose = standards.on_standards(fit_service, 15, 20, key, 1)
+    tight = standards.on_standards(fit_service, 1, 1, key, 1)
     n_loose = len(loose["marks"]["traces"][0]["x"]) if loose["marks"]["traces"] else 0
     (trace,) = tight["marks"]["traces"]
     ref = statsmodels_back(ASSAY_X, ASSAY_Y, 1)
@@ -303,7 +304,7 @@ def test_a_tighter_tolerance_fails_more_and_marks_them(fit_service):
 def test_tolerance_out_of_range_is_said(fit_service, bad):
     key = key_for(fit_service, csv_bytes("conc,area", ASSAY_X, ASSAY_Y), "assay.csv", mode="kfold")
     with pytest.raises(FitError, match="above 0 and at most 100"):
-        standards.on_standards(fit_service, "none", bad, 20, key, 1)
+        standards.on_standards(fit_service, bad, 20, key, 1)
     out = standards._on_error(FitError("x"))
     assert out["table"] == [] and out["marks"]["traces"] == []
 
@@ -314,7 +315,7 @@ def test_weighting_comparison_ranks_as_statsmodels_wls_does(fit_service):
     The assay has no blank here, so every rule is defined."""
     x, y = ASSAY_X[1:], ASSAY_Y[1:]
     key = key_for(fit_service, csv_bytes("conc,area", x, y), "assay.csv", mode="kfold")
-    out = standards.on_standards(fit_service, "none", 15, 20, key, 1)
+    out = standards.on_standards(fit_service, 15, 20, key, 1)
     xa, ya = np.asarray(x), np.asarray(y)
     weights = {"none": None, "1/x": 1 / xa, "1/x2": 1 / xa**2, "1/y": 1 / ya, "1/y2": 1 / ya**2}
     sums = {r: sum(abs(re) for _, re in statsmodels_back(x, y, 1, w)) for r, w in weights.items()}
@@ -353,7 +354,7 @@ def test_edge_types_the_new_inputs():
 def test_a_skipped_weighting_names_the_file_lines(fit_service):
     """The blank (x = 0, line 2 of the file) makes 1/x and 1/x² undefined: the comparison says so by line."""
     key = key_for(fit_service, csv_bytes("conc,area", ASSAY_X, ASSAY_Y), "assay.csv", mode="kfold")
-    out = standards.on_standards(fit_service, "none", 15, 20, key, 1)
+    out = standards.on_standards(fit_service, 15, 20, key, 1)
     words = page_text(out["comparison"])
     assert words.count("1 line (line 2)") == 2 and "row 0" not in words
 
@@ -365,10 +366,10 @@ def test_a_skipped_weighting_names_the_file_lines(fit_service):
 def test_report_sections_carry_what_the_page_shows(pontius):
     """The report gets the same read-back and back-calculation the panels show (same fit, same numbers)."""
     service, key, d = pontius
-    got = cal.report_sections(service, key, 2, readings="0.9; abc", count=3, level=90, weighting="none")
+    got = cal.report_sections(service, key, 2, readings="0.9; abc", count=3, level=90)
     assert set(got) == {"back_calculation"}  # "abc" is refused: no read-back section
-    got = cal.report_sections(service, key, 2, readings="0.9; 1.45", count=3, level=90, weighting="none")
-    page = readback.on_readback(service, "0.9; 1.45", 3, 90, "none", key, 2)
+    got = cal.report_sections(service, key, 2, readings="0.9; 1.45", count=3, level=90)
+    page = readback.on_readback(service, "0.9; 1.45", 3, 90, key, 2)
     rb = got["read_back"]
     assert rb.level == 0.9 and rb.readings == 3
     (band0,) = [s for s in marks_of(page["marks"], "-interval") if "-0-" in s["name"]]
@@ -384,8 +385,8 @@ def test_too_many_rows_for_standards_is_said(fit_service):
     x = np.linspace(1.0, 100.0, n)
     key = key_for(fit_service, csv_bytes("conc,area", x, 2 + 0.5 * x), "big.csv", mode="kfold")
     with pytest.raises(FitError, match=f"{n:,} rows, {cal.MAX_STANDARDS:,} at most"):
-        standards.on_standards(fit_service, "none", 15, 20, key, 1)
-    out = readback.on_readback(fit_service, "30", 1, 95, "none", key, 1)  # reading back unknowns still works
+        standards.on_standards(fit_service, 15, 20, key, 1)
+    out = readback.on_readback(fit_service, "30", 1, 95, key, 1)  # reading back unknowns still works
     (line,) = marks_of(out["marks"], "-x")
     assert line["x0"] == pytest.approx((30 - 2) / 0.5, rel=1e-9)  # exact line y = 2 + 0.5 x
 
@@ -395,7 +396,7 @@ def test_a_blank_that_does_not_read_back_still_says_it_is_a_blank(fit_service):
     y = list(ASSAY_Y)
     y[0] = -5.0  # far below the line's intercept (statsmodels OLS intercept is about 0)
     key = key_for(fit_service, csv_bytes("conc,area", ASSAY_X, y), "assay.csv", mode="kfold")
-    out = standards.on_standards(fit_service, "none", 15, 20, key, 1)
+    out = standards.on_standards(fit_service, 15, 20, key, 1)
     first = [page_text(c) for c in out["table"].children[1].children[0].children]
     assert first[5] == text.NOT_JUDGED and first[6].startswith("Blank (x = 0): not judged.")
 
@@ -418,9 +419,12 @@ def test_without_a_named_weighting_the_hand_over_model_is_read_through(pontius):
 
     service, key, _ = pontius
     ds, cols, split = from_key(key)
-    model = cal.calibration_fit(service, ds, cols, split, 2, "none")
+    model = cal.calibration_fit(service, ds, cols, split, 2)
     assert model.fit is views_model.handover_fit(service, ds, cols, 2)
-    assert cal.calibration_fit(service, ds, cols, split, 2, "1/x").fit is not model.fit
+    weighted = replace(cols, weighting="1/x")
+    by_rule = cal.calibration_fit(service, ds, weighted, split, 2)
+    assert by_rule.fit is views_model.handover_fit(service, ds, weighted, 2) and by_rule.fit is not model.fit
+    assert by_rule.weighting == by_rule.fit.weighting == "1/x"
 
 
 def test_the_html_report_carries_the_read_back_and_the_standards(pontius):
@@ -428,11 +432,11 @@ def test_the_html_report_carries_the_read_back_and_the_standards(pontius):
     from app.panels import downloads
 
     service, key, d = pontius
-    calibration = dict(readings="0.9; 1.45", count=3, level=90, weighting="none", tolerance=15, lowest_tolerance=20)
+    calibration = dict(readings="0.9; 1.45", count=3, level=90, tolerance=15, lowest_tolerance=20)
     page = downloads.on_export(service, "report", key, 2, ["confidence"], "", calibration)["download"]["content"]
     assert "Read-back of unknowns" in page and "90 % calibration interval" in page
     assert "Back-calculated standards" in page
-    rb = readback.on_readback(service, "0.9; 1.45", 3, 90, "none", key, 2)
+    rb = readback.on_readback(service, "0.9; 1.45", 3, 90, key, 2)
     (line,) = [s for s in marks_of(rb["marks"], "-x") if "-0-" in s["name"]]
     assert f"{line['x0']:.8g}" in page  # the same x0 as on the page (8 significant digits)
     plain = downloads.on_export(service, "report", key, 2, ["confidence"], "")["download"]["content"]
@@ -447,7 +451,7 @@ def test_rows_left_out_by_the_analyst_are_left_out_of_the_read_back(pontius):
     keep = np.arange(d.x.size) != 10
     u = d.x[keep] / SCALE
     ref = Reference(sm.OLS(d.y[keep], np.vander(u, 3, increasing=True)).fit())
-    out = readback.on_readback(service, "1.2", 1, 95, "none", key, 2)
+    out = readback.on_readback(service, "1.2", 1, 95, key, 2)
     (line,) = marks_of(out["marks"], "-x")
     assert line["x0"] == pytest.approx(ref.read(1.2, 1, u.min(), u.max())[0] * SCALE, rel=1e-6)
     assert "39 usable rows" in out["note"] and out["marks"]["stamp"][7] == [12]

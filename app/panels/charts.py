@@ -93,6 +93,7 @@ INPUTS = dict(
     folds=Input(ids.FOLDS, "value"),
     seed=Input(ids.SEED, "value"),
     exclusions=Input(ids.EXCLUSIONS, "data"),
+    weighting=Input(ids.WEIGHTING, "value"),
 )
 STATE = dict(degree=State(ids.DEGREE, "value"), bands=State(ids.BANDS, "value"))
 
@@ -111,10 +112,12 @@ def on_split(
     degree=None,
     bands=None,
     exclusions=None,
+    weighting=None,
 ) -> dict:
     """Both charts, the verdict, the slider's range and the settings record for a new data/column/split choice."""
     left_out = exclusions_of(exclusions, (dataset or {}).get("id"))
-    key = split_key(dataset, x, y, weights, group, mode, holdout, folds, seed, [e.line for e in left_out])
+    lines = [e.line for e in left_out]
+    key = split_key(dataset, x, y, weights, group, mode, holdout, folds, seed, lines, weighting)
     ds, cols, split = from_key(key)
     view = service.split_view(ds, cols, split)
     d = view.recommended_degree if degree is None else clamp_degree(degree, view.max_degree)

@@ -6,14 +6,21 @@ its file (``file``, ``sha``, ``sheet``) besides the settings: when that file is 
 browser session still holds it) the view is restored; otherwise the page asks for the file and
 keeps the view pending until a file of that name is loaded.
 
-A degree chosen by hand is kept while the columns (dataset, x, y, weights, group) stay the
-same; when they change the degree moves to the new recommendation (``on_selection``).
+The weighting picker (``ids.WEIGHTING``: none, 1/x, 1/x², 1/y, 1/y²; ``fitting.WEIGHTINGS``) sits
+under the weights column: it is the one weighting of the page, carried by the settings record
+(``settings.split_key``) to the sweeps, the verdict, the charts, the model and every panel. The
+address keeps it as ``wt``.
+
+A degree chosen by hand is kept while the columns (dataset, x, y, weights, group) and the
+weighting stay the same; when they change the degree moves to the new recommendation
+(``on_selection``).
 """
 
 from __future__ import annotations
 
 from dash import Input, Output, State, dcc, html, no_update
 
+import fitting
 from fitting import DegreescopeError
 
 from .. import components, ids, text
@@ -26,6 +33,7 @@ from .settings import (
     level_from_query,
     names_other_file,
     parse_query,
+    weighting_from_query,
     with_view_extras,
 )
 
@@ -111,6 +119,13 @@ def layout(cfg: PageConfig) -> list:
         dcc.Dropdown(id=ids.Y_COLUMN, clearable=False),
         html.Label("weights (optional, e.g. 1/variance)", htmlFor=ids.WEIGHTS_COLUMN),
         dcc.Dropdown(id=ids.WEIGHTS_COLUMN, placeholder="none"),
+        html.Label(text.WEIGHTING_LABEL, htmlFor=ids.WEIGHTING),
+        dcc.Dropdown(
+            id=ids.WEIGHTING,
+            options=[{"label": label, "value": rule} for rule, label in fitting.WEIGHTINGS.items()],
+            value="none",
+            clearable=False,
+        ),
         html.Label("group (optional: runs, batches, plates)", htmlFor=ids.GROUP_COLUMN),
         dcc.Dropdown(id=ids.GROUP_COLUMN, placeholder="none"),
         html.P(id=ids.COLUMN_NOTE, className="muted small"),
@@ -174,6 +189,7 @@ DATASET_OUTPUT = dict(
     y=Output(ids.Y_COLUMN, "value"),
     weights_options=Output(ids.WEIGHTS_COLUMN, "options"),
     weights=Output(ids.WEIGHTS_COLUMN, "value"),
+    weighting=Output(ids.WEIGHTING, "value"),
     group_options=Output(ids.GROUP_COLUMN, "options"),
     group=Output(ids.GROUP_COLUMN, "value"),
     mode=Output(ids.SPLIT_MODE, "value"),
@@ -193,17 +209,18 @@ DATASET_OUTPUT = dict(
 )
 DATASET_INPUTS = dict(dataset=Input(ids.DATASET, "data"))
 DATASET_STATE = dict(search=State(ids.URL, "search"), pending=State(ids.VIEW_PENDING, "data"))
-DEFAULT_SETTINGS = dict(mode="holdout", holdout=25, folds=10, seed=0, degree=None)
+DEFAULT_SETTINGS = dict(mode="holdout", holdout=25, folds=10, seed=0, degree=None, weighting="none")
 
 
 def _settings_from_query(q: dict) -> dict:
-    """Split settings and degree from the URL, each brought into its allowed range."""
+    """Split settings, degree and weighting from the URL, each brought into its allowed range."""
     return dict(
         mode=q.get("mode") if q.get("mode") in SPLIT_MODES else "holdout",
         holdout=min(50, max(10, whole(q.get("holdout"), 25))),
         folds=min(50, max(2, whole(q.get("k"), 10))),
         seed=max(0, whole(q.get("seed"), 0)),
         degree=whole(q.get("degree")),
+        weighting=weighting_from_query(q),
     )
 
 
@@ -272,7 +289,7 @@ def _apply_view(info: DatasetInfo, q: dict) -> dict:
         elif file and info.name == file and q.get("from_pending"):
             notice = text.view_restored(file)
     by_url = settings["degree"] is not None
-    seen = [info.id, cols["x"], cols["y"], cols["weights"], cols["group"]] if by_url else None
+    seen = [info.id, cols["x"], cols["y"], cols["weights"], cols["group"], settings["weighting"]] if by_url else None
     bands = bands_from_query(q) if cols is not None else None
     return dict(
         **cols,
@@ -396,14 +413,14 @@ SELECTION_STATE = dict(degree=State(ids.DEGREE, "value"), seen=State(ids.VIEW_CO
 def on_selection(service: FitService, key, degree, seen) -> dict:
     """For the charts' settings: the recommended degree when the columns changed, the report, the notes.
 
-    A degree set by hand is kept while dataset, x, y, weights and group stay the same (``seen``).
+    A degree set by hand is kept while dataset, x, y, weights, group and weighting stay the same (``seen``).
     """
     if not key:
         return {name: no_update for name in SELECTION_OUTPUT}
     ds, cols, split = from_key(key)
     view = service.split_view(ds, cols, split)
     info = service.info(ds)
-    signature = [ds, cols.x, cols.y, cols.weights, cols.group]
+    signature = [ds, cols.x, cols.y, cols.weights, cols.group, cols.weighting]
     same = seen == signature
     rec = view.recommended_degree
     return dict(

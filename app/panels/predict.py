@@ -1,7 +1,9 @@
-"""Try x values: predictions with 95 % confidence and prediction intervals at typed x values.
+"""Try x values: predictions with confidence and prediction intervals at typed x values.
 
 Predictions come from the hand-over model (every usable row, ``app/views_model.py``), the model
-the downloads hold.
+the downloads hold. The intervals follow the page's interval level (``ids.INTERVAL_LEVEL``, in
+per cent, set by the read-back panel's level box and kept in the address; 95 % when unset), and
+the table's header names it.
 
 Typed values follow the file's decimal mark (carried in the settings record): with a decimal
 comma, "250,5" is one value and semicolons or new lines separate values.
@@ -16,7 +18,7 @@ from .. import components, ids, views_model
 from ..service import FitService, parse_x_values
 from ..text import PREDICT_NOTE, interval_weight_note, prediction_head
 from ._common import PageConfig, notice_on_error, panel
-from .settings import from_key
+from .settings import from_key, level_fraction
 
 SLOT = "tools"
 
@@ -37,6 +39,7 @@ INPUTS = dict(
     text=Input(ids.PREDICT_INPUT, "value"),
     key=Input(ids.SPLIT_KEY, "data"),
     degree=Input(ids.DEGREE_SETTLED, "data"),
+    level=Input(ids.INTERVAL_LEVEL, "data"),
 )
 
 
@@ -45,16 +48,20 @@ def typed_x(text, key) -> np.ndarray:
     return parse_x_values(text, decimal=(key or {}).get("decimal", "."))
 
 
-def on_predict(service: FitService, text, key, degree) -> dict:
-    """The prediction table for the typed x values (the first rows of it when there are many)."""
+def on_predict(service: FitService, text, key, degree, level=None) -> dict:
+    """The prediction table for the typed x values (the first rows of it when there are many).
+
+    ``level``: the page's interval level in per cent (95 when empty).
+    """
     xs = typed_x(text, key)
     if xs.size == 0 or not key or degree is None:
         return dict(table=html.P("Predictions appear here.", className="muted small"))
     ds, cols, split = from_key(key)
     sel = service.selection(ds, cols)
-    head = prediction_head(sel.x_name, sel.x_unit, sel.y_name, sel.y_unit)
+    lv = level_fraction(level)
+    head = prediction_head(sel.x_name, sel.x_unit, sel.y_name, sel.y_unit, lv)
     fit = views_model.handover_model(service, ds, cols, split, degree).fit
-    p = views_model.handover_predict(service, ds, cols, split, degree, xs)
+    p = views_model.handover_predict(service, ds, cols, split, degree, xs, lv)
     table = components.handover_prediction_table(p, head)
     weight = interval_weight_note(fit)
     return dict(table=html.Div([table, html.P(weight, className="muted small")]) if weight else table)
@@ -63,5 +70,5 @@ def on_predict(service: FitService, text, key, degree) -> dict:
 def register(app, service: FitService) -> None:
     """Wire the prediction table."""
     app.callback(output=OUTPUT, inputs=INPUTS, on_error=notice_on_error(OUTPUT, "table", components.error_paragraph))(
-        lambda text, key, degree: on_predict(service, text, key, degree)
+        lambda text, key, degree, level: on_predict(service, text, key, degree, level)
     )

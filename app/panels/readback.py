@@ -4,7 +4,8 @@ The user types readings y0 (each the mean of k readings; typed with the file's d
 in the prediction box) and gets x0, its calibration interval at the chosen level (NIST/SEMATECH
 e-Handbook 4.5.2.1), u(x0) and every warning in words. The level box is the page's interval level
 (``ids.INTERVAL_LEVEL``, which the address keeps). The fit is the precise fit on every
-usable row with the weighting chosen in the standards panel (``app/views_calibration.py``).
+usable row with the page's weighting, chosen in the Columns panel and carried by the settings
+record (``app/views_calibration.py``).
 
 The readings are marked on the fit chart: a dashed line at each y0 and the interval shaded
 along x. A second, clientside callback merges those shapes into the chart's figure with a
@@ -101,7 +102,6 @@ INPUTS = dict(
     readings=Input(ids.READBACK_INPUT, "value"),
     count=Input(ids.READBACK_COUNT, "value"),
     level=Input(ids.READBACK_LEVEL, "value"),
-    weighting=Input(ids.WEIGHTING, "value"),
     key=Input(ids.SPLIT_KEY, "data"),
     degree=Input(ids.DEGREE_SETTLED, "data"),
 )
@@ -112,7 +112,7 @@ def _stamp(key, degree, weighting) -> list:
     return [key.get(k) for k in names] + [degree, weighting]
 
 
-def on_readback(service: FitService, readings, count, level, weighting, key, degree) -> dict:
+def on_readback(service: FitService, readings, count, level, key, degree) -> dict:
     """x0, its interval and u(x0) per reading, the fit it was read through, and the chart's marks."""
     if not key or degree is None:
         return dict(result=html.P(text.READBACK_EMPTY, className="muted small"), note="", marks=cal.reading_marks(None))
@@ -120,7 +120,7 @@ def on_readback(service: FitService, readings, count, level, weighting, key, deg
     k = cal.check_readings_count(count)
     lv = cal.check_level(level)
     ds, cols, split = from_key(key)
-    model = cal.calibration_fit(service, ds, cols, split, degree, weighting)
+    model = cal.calibration_fit(service, ds, cols, split, degree)
     stamp = _stamp(key, model.fit.degree, model.weighting)
     if ys.size == 0:
         empty = html.P(text.READBACK_EMPTY, className="muted small")
@@ -148,7 +148,6 @@ REPORT_STATE = dict(
     readings=State(ids.READBACK_INPUT, "value"),
     count=State(ids.READBACK_COUNT, "value"),
     level=State(ids.READBACK_LEVEL, "value"),
-    weighting=State(ids.WEIGHTING, "value"),
     tolerance=State(ids.TOLERANCE, "value"),
     lowest_tolerance=State(ids.LOWEST_TOLERANCE, "value"),
 )
@@ -184,9 +183,7 @@ def on_level_page(level, box) -> dict:
 def register(app, service: FitService) -> None:
     """Wire the read-back and the clientside merge of its marks into the fit chart."""
     app.callback(output=OUTPUT, inputs=INPUTS, on_error=_on_error)(
-        lambda readings, count, level, weighting, key, degree: on_readback(
-            service, readings, count, level, weighting, key, degree
-        )
+        lambda readings, count, level, key, degree: on_readback(service, readings, count, level, key, degree)
     )
     app.callback(
         output=LEVEL_TO_PAGE, inputs=LEVEL_TO_PAGE_INPUTS, state=LEVEL_TO_PAGE_STATE, prevent_initial_call=True

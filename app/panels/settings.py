@@ -2,7 +2,8 @@
 
 A shared URL names the file besides the settings: ``file`` (its name), ``sha`` (the first 12
 hex digits of its SHA-256) and, for a workbook, ``sheet``; then the columns, the split, the
-degree, the bands shown (``bands``) and the interval level in per cent (``level``). A page
+degree, the named weighting (``wt``, when not "none"), the bands shown (``bands``) and the
+interval level in per cent (``level``). A page
 opened on a URL whose file is not loaded keeps the settings pending until a file of that
 name is loaded (``app/panels/data.py``, ``on_dataset``).
 """
@@ -13,11 +14,15 @@ from urllib.parse import parse_qs, urlencode
 
 from fitting import DegreescopeError
 
-from ..service import Columns, SplitSettings
+from ..service import Columns, SplitSettings, check_weighting_choice
 
 
-def split_key(dataset, x, y, weights, group, mode, holdout, folds, seed, excluded=()) -> dict:
-    """The store record of the chart settings; refused split values are replaced by the ones in force."""
+def split_key(dataset, x, y, weights, group, mode, holdout, folds, seed, excluded=(), weighting=None) -> dict:
+    """The store record of the chart settings; refused split values are replaced by the ones in force.
+
+    ``weighting``: the page's named weighting (empty: "none"); an unknown one is refused (FitError).
+    """
+    rule = check_weighting_choice(weighting)
     s, _refused = SplitSettings.coerce(mode, holdout, 10 if folds is None else folds, 0 if seed is None else seed)
     if not dataset or not dataset.get("id"):
         raise DegreescopeError("No dataset is loaded; upload a file.")
@@ -38,6 +43,7 @@ def split_key(dataset, x, y, weights, group, mode, holdout, folds, seed, exclude
         "sha": dataset.get("sha") or None,
         "sheet": dataset.get("sheet") or None,
         "excluded": sorted(int(v) for v in excluded),
+        "weighting": rule,
     }
 
 
@@ -45,7 +51,14 @@ def from_key(key: dict) -> tuple[str, Columns, SplitSettings]:
     """(dataset id, columns, split) from a store record made by ``split_key``."""
     if not key:
         raise DegreescopeError("The charts are not ready yet; wait a moment or upload a file.")
-    cols = Columns(key["x"], key["y"], key.get("weights"), key.get("group"), tuple(key.get("excluded") or ()))
+    cols = Columns(
+        key["x"],
+        key["y"],
+        key.get("weights"),
+        key.get("group"),
+        tuple(key.get("excluded") or ()),
+        check_weighting_choice(key.get("weighting")),
+    )
     split = SplitSettings(
         mode=key["mode"], holdout=float(key["holdout"]), folds=int(key["folds"]), seed=int(key["seed"])
     )
@@ -60,6 +73,8 @@ def url_query(key: dict, degree, out: str | None = None) -> str:
         q["w"] = key["weights"]
     if key.get("group"):
         q["g"] = key["group"]
+    if key.get("weighting") and key["weighting"] != "none":
+        q["wt"] = key["weighting"]
     q.update(
         mode=key["mode"], holdout=f"{round(float(key['holdout']) * 100)}", k=str(key["folds"]), seed=str(key["seed"])
     )
@@ -82,6 +97,24 @@ BAND_NAMES = ("confidence", "prediction")
 DEFAULT_BANDS = ["confidence"]
 DEFAULT_LEVEL = 95
 LEVEL_RANGE = (50, 99.9)  # per cent
+
+
+def weighting_from_query(q: dict) -> str:
+    """The named weighting from the URL (``wt``): a rule of ``fitting.WEIGHTINGS``, else "none"."""
+    try:
+        return check_weighting_choice(q.get("wt"))
+    except DegreescopeError:
+        return "none"
+
+
+def level_fraction(level) -> float:
+    """The page's interval level (``ids.INTERVAL_LEVEL``, in per cent) as a fraction; 0.95 when empty or
+    outside LEVEL_RANGE."""
+    try:
+        v = float(level)
+    except (TypeError, ValueError):
+        return DEFAULT_LEVEL / 100
+    return v / 100 if LEVEL_RANGE[0] <= v <= LEVEL_RANGE[1] else DEFAULT_LEVEL / 100
 
 
 def bands_from_query(q: dict) -> list[str] | None:

@@ -1,8 +1,9 @@
 """Standards read back: every standard's response through the curve, judged; the weightings compared.
 
-The weighting picked here (none, 1/x, 1/x², 1/y, 1/y²; ``fitting.WEIGHTINGS``) is the weighting
-of the calibration fit this panel and the read-back panel use (``app/views_calibration.py``).
-Rows where the rule is undefined are refused with their line numbers. The tolerances default
+The fit read through carries the page's weighting (none, 1/x, 1/x², 1/y, 1/y²; ``fitting.WEIGHTINGS``),
+picked in the Columns panel (``app/panels/data.py``) and carried by the settings record; the
+comparison marks the rule in force. Rows where the rule is undefined are refused with their line
+numbers. The tolerances default
 to the bioanalytical rule of FDA 2018 and ICH M10 (±15 %, ±20 % at the lowest level) and can
 be set. Failing standards are crossed out in red on the fit chart by a marker trace that a clientside
 ``dash.Patch`` appends to the chart's data, after removing the one it added before (found by
@@ -12,8 +13,6 @@ its ``meta.owner``, ``views_calibration.STANDARDS_OWNER``).
 from __future__ import annotations
 
 from dash import Input, Output, State, dcc, html
-
-import fitting
 
 from .. import components, ids, text
 from .. import views_calibration as cal
@@ -49,17 +48,9 @@ def _field(label: str, child, field_id: str) -> html.Div:
 
 
 def layout(cfg: PageConfig) -> html.Section:
-    """The weighting and the tolerances, the summary and the table, then the weighting comparison."""
-    weighting = dcc.Dropdown(
-        id=ids.WEIGHTING,
-        options=[{"label": label, "value": rule} for rule, label in fitting.WEIGHTINGS.items()],
-        value="none",
-        clearable=False,
-        className="cal-weighting",
-    )
+    """The tolerances, the summary and the table, then the weighting comparison."""
     fields = html.Div(
         [
-            _field(text.WEIGHTING_LABEL, weighting, ids.WEIGHTING),
             _field(
                 text.TOLERANCE_LABEL,
                 dcc.Input(id=ids.TOLERANCE, type="number", value=TOLERANCE_DEFAULT, className="num"),
@@ -96,7 +87,6 @@ OUTPUT = dict(
     marks=Output(ids.STANDARDS_MARKS, "data"),
 )
 INPUTS = dict(
-    weighting=Input(ids.WEIGHTING, "value"),
     tolerance=Input(ids.TOLERANCE, "value"),
     lowest_tolerance=Input(ids.LOWEST_TOLERANCE, "value"),
     key=Input(ids.SPLIT_KEY, "data"),
@@ -104,14 +94,14 @@ INPUTS = dict(
 )
 
 
-def on_standards(service: FitService, weighting, tolerance, lowest_tolerance, key, degree) -> dict:
+def on_standards(service: FitService, tolerance, lowest_tolerance, key, degree) -> dict:
     """The standards table and its summary, the weighting comparison and the marks of failing standards."""
     if not key or degree is None:
         return dict(note="", summary="", table=[], comparison=[], marks=cal.failing_marks(None))
     tol = cal.check_tolerance(tolerance, TOLERANCE_DEFAULT, text.TOLERANCE_WHAT)
     low = cal.check_tolerance(lowest_tolerance, LOWEST_TOLERANCE_DEFAULT, text.LOWEST_TOLERANCE_WHAT)
     ds, cols, split = from_key(key)
-    model = cal.calibration_fit(service, ds, cols, split, degree, weighting)
+    model = cal.calibration_fit(service, ds, cols, split, degree)
     back = cal.back_calculation(model, tol, low)
     comparison = cal.weighting_comparison(service, ds, cols, model)
     extra = [html.P(text.weighting_column_note(str(cols.weights)), className="muted small")] if cols.weights else []
@@ -135,9 +125,7 @@ def _on_error(exc: Exception) -> dict:
 def register(app, service: FitService) -> None:
     """Wire the standards table and the clientside merge of the failing standards' marker trace."""
     app.callback(output=OUTPUT, inputs=INPUTS, on_error=_on_error)(
-        lambda weighting, tolerance, lowest_tolerance, key, degree: on_standards(
-            service, weighting, tolerance, lowest_tolerance, key, degree
-        )
+        lambda tolerance, lowest_tolerance, key, degree: on_standards(service, tolerance, lowest_tolerance, key, degree)
     )
     app.clientside_callback(
         MERGE_TRACE_JS,
