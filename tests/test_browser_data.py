@@ -281,3 +281,43 @@ def test_the_degree_follows_new_columns_and_stays_for_a_new_split(browser, serve
         shot(pg, "data-06-degree-follows-columns-1024")
     finally:
         ctx.close()
+
+
+# ----------------------------------------------------------------------------
+# the page's weighting, picked under the weights column
+
+
+def wait_caption(pg, part: str) -> None:
+    pg.wait_for_function(
+        """(t) => { const gd = document.querySelector('#fit-chart .js-plotly-plot');
+            const notes = (gd && gd._fullLayout && gd._fullLayout.annotations) || [];
+            return notes.some((a) => (a.text || '').includes(t)); }""",
+        arg=part,
+        timeout=40_000,
+    )
+
+
+def test_the_weighting_picked_under_the_weights_column_reaches_the_page_and_the_address(browser, server, tmp_path):
+    """The invented oven file: its first set point is 0 (line 2), where 1/x is undefined; 1/y² is defined."""
+    csv = tmp_path / "oven.csv"
+    oven_csv(csv)
+    ctx, pg = open_page(browser, server.url)
+    try:
+        wait_for_title(pg, FIT, "Degree")
+        pg.set_input_files("#upload input[type=file]", str(csv))
+        wait_for_title(pg, FIT, "straight against set point (C)")
+        pick(pg, "weighting", "1/x: variance grows with x")
+        wait_text(pg, "fit-notice", "undefined where x = 0: 1 line (line 2)")
+        pick(pg, "weighting", "1/y²: spread grows with the response (constant relative error)")
+        wait_caption(pg, "weighting 1/y²")
+        wait_caption(pg, "weighted test RMSE")
+        assert pg.inner_text("#fit-notice").strip() == ""
+        wait_text(pg, "model-note", "the rule 1/y2 gives there")
+        pg.wait_for_function("() => location.search.includes('wt=1%2Fy2')")
+        shot(pg, "data-07-weighting-1-over-y2")
+        pg.goto(pg.url)  # reload: the same session still holds the file
+        wait_for_title(pg, FIT, "straight against set point (C)")
+        wait_caption(pg, "weighting 1/y²")
+        assert "1/y²" in pg.inner_text("#weighting")
+    finally:
+        ctx.close()

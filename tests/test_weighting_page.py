@@ -321,3 +321,17 @@ def test_the_model_card_intervals_follow_the_page_level(fit_service):
     only = model.on_model(fit_service, key, 2, None, 90, level_only=True)
     assert only["search"] is model.no_update and only["residual_figure"] is model.no_update
     assert "90 % CI" in str(only["coefficients"].to_plotly_json())
+
+
+def test_a_blank_left_out_on_purpose_lets_1_over_x_be_used(fit_service):
+    """The message's way out: the blank (line 2) left out by the analyst; the fit is statsmodels WLS on the rest."""
+    x, y = assay(blank=True)
+    store = load(fit_service, x, y)
+    with pytest.raises(FitError, match=r"\(line 2\)"):
+        split_out(fit_service, store, weighting="1/x")
+    left_out = {"dataset": store["id"], "rows": [{"line": 2, "reason": "blank"}]}
+    key = split_out(fit_service, store, weighting="1/x", exclusions=left_out)["split_key"]
+    assert key["excluded"] == [2]
+    ds, cols, _ = from_key(key)
+    fit = views_model.handover_fit(fit_service, ds, cols, 2)
+    np.testing.assert_allclose(fit.coefficients, wls(x[1:], y[1:], 2, 1.0 / x[1:]).params, rtol=1e-9)  # statsmodels
