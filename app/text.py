@@ -408,11 +408,17 @@ def error_chart_key(view: SplitView) -> str:
     )
 
 
-def fit_chart_key(mode: str) -> str:
+def fit_chart_key(mode: str, dense: bool = False) -> str:
     """One plain sentence for the fit chart's marks."""
     curve = "every row" if mode == "kfold" else "the training rows only"
+    rows = (
+        "Blue shading: where the training rows lie, amber: the held-out rows (darker = more rows; click a name in "
+        "the legend to hide or show it)."
+        if dense
+        else "Blue circles: training rows; amber diamonds: held-out rows."
+    )
     return (
-        f"Blue circles: training rows; amber diamonds: held-out rows. The dark curve is fitted on {curve}; the "
+        f"{rows} The dark curve is fitted on {curve}; the "
         "blue band is its 95 % confidence band, the grey one its 95 % prediction band; shaded edges lie "
         "beyond the x range of those rows (extrapolation). The model card and the downloads use the fit on "
         "every row."
@@ -711,3 +717,11 @@ def standard_note(x: float, note: str | None) -> str:
     if x == 0 and "Blank" not in note:
         return f"Blank (x = 0): not judged. {note}".strip()
     return note
+
+
+def density_note(rows: int, nx: int, ny: int, x_step: float, y_step: float) -> str:
+    """The binning of a density chart, in the chart's corner."""
+    return (
+        f"{fmt_count(rows)} rows as a density: {nx} × {ny} bins of {x_step:.3g} (x) by {y_step:.3g} (y); "
+        "darker = more rows"
+    )

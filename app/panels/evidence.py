@@ -308,7 +308,8 @@ def _flagged(service, key, degree, store):
         return ds, cols, split, []
 
 
-RING_FIT_OUTPUT = dict(figure=Output(ids.FIT_CHART, "figure", allow_duplicate=True), ring=Output(ids.RING_FIT, "data"))
+# the rings go on the fit chart's points layer, where the pointer reaches them (app/layers.py)
+RING_FIT_OUTPUT = dict(figure=Output(ids.FIT_POINTS, "figure", allow_duplicate=True), ring=Output(ids.RING_FIT, "data"))
 RING_FIT_INPUTS = dict(
     key=Input(ids.SPLIT_KEY, "data"), degree=Input(ids.DEGREE_SETTLED, "data"), store=Input(ids.EXCLUSIONS, "data")
 )
@@ -400,7 +401,7 @@ def _put_back_line() -> int | None:
 
 
 CLICK_OUTPUT = dict(line=Output(ids.LEAVE_OUT_LINE, "value", allow_duplicate=True))
-CLICK_INPUTS = dict(click=Input(ids.FIT_CHART, "clickData"))
+CLICK_INPUTS = dict(click=Input(ids.FIT_POINTS, "clickData"))
 CLICK_STATE = dict(key=State(ids.SPLIT_KEY, "data"))
 
 
