@@ -223,21 +223,6 @@ def _extrapolation_zones(view: SplitView) -> tuple[list[dict], list[dict]]:
     return shapes, notes
 
 
-def _corner_note(note: str) -> dict:
-    return dict(
-        text=plot_text(note),
-        xref="paper",
-        yref="paper",
-        x=1,
-        y=1.0,
-        xanchor="right",
-        yanchor="bottom",
-        showarrow=False,
-        font=dict(size=11, color="#44525c"),
-        bgcolor="rgba(255,253,248,0.8)",
-    )
-
-
 def _x_range(view: SplitView) -> list[float]:
     return [float(view.grid[0]), float(view.grid[-1])]
 
@@ -250,7 +235,7 @@ def _y_range(view: SplitView) -> list[float]:
 def _layer_layout(view: SplitView, title: str, caption) -> dict:
     """The layout both layers share: same margins (never widened by plotly) and the same axis ranges."""
     layout = _base_layout(title, plot_text(view.x_label), wrapped_text(view.y_label, 40), caption)
-    layout["margin"]["autoexpand"] = False
+    layout["margin"].update(autoexpand=False, t=104, b=116)  # room for two legend rows and a third caption line
     layout["yaxis"]["range"] = _y_range(view)
     layout["xaxis"]["range"] = _x_range(view)
     return layout
@@ -259,10 +244,19 @@ def _layer_layout(view: SplitView, title: str, caption) -> dict:
 def points_figure(view: SplitView) -> go.Figure:
     """The points layer: the rows (or their density) and the grid, under the curve layer."""
     layout = _layer_layout(view, "", ())
-    layout.update(title=dict(text=""), annotations=[], legend=dict(layout["legend"], y=1.075))
+    layout.update(title=dict(text=""), annotations=[], legend=dict(layout["legend"], y=1.085))
     for axis in ("xaxis", "yaxis"):
         layout[axis].update(title=dict(text=""), showticklabels=False, showline=False)
     return go.Figure(data=_point_traces(view), layout=layout)
+
+
+def fit_caption(view: SplitView, dv: DegreeView) -> tuple[str, ...]:
+    """The fit chart's caption: the numbers at this degree, the split, and how the rows are drawn."""
+    lines = text.degree_caption(view, dv)
+    if view.dense:
+        d = view.density
+        return (*lines, text.density_note(view.rows_used, d.train.shape[1], d.train.shape[0], d.x_step, d.y_step))
+    return lines  # fewer rows than DENSITY_FROM: every row is drawn
 
 
 def fit_figure(view: SplitView, dv: DegreeView, bands=(CONFIDENCE,)) -> go.Figure:
@@ -270,19 +264,14 @@ def fit_figure(view: SplitView, dv: DegreeView, bands=(CONFIDENCE,)) -> go.Figur
 
     Transparent, so that the points layer (``points_figure``) shows through beneath it.
     """
-    layout = _layer_layout(view, fit_title(view, dv.degree), text.degree_caption(view, dv))
+    layout = _layer_layout(view, fit_title(view, dv.degree), fit_caption(view, dv))
     layout.update(paper_bgcolor="rgba(0,0,0,0)", plot_bgcolor="rgba(0,0,0,0)")
     for axis in ("xaxis", "yaxis"):
         layout[axis].update(showgrid=False)
     shapes, notes = _extrapolation_zones(view)
     layout["shapes"] = shapes
     layout["annotations"] = layout["annotations"] + notes
-    if view.dense:
-        d = view.density
-        note = text.density_note(view.rows_used, d.train.shape[1], d.train.shape[0], d.x_step, d.y_step)
-        layout["annotations"].append(_corner_note(note))
-    elif view.sampled:
-        layout["annotations"].append(_corner_note(text.sample_note(view.points_shown, view.rows_used)))
+    layout["meta"] = {"frames": layers.frames_stamp(view)}
     return go.Figure(data=_curve_traces(view, dv, set(bands or ())), layout=layout)
 
 
@@ -334,9 +323,11 @@ def _error_traces(view: SplitView) -> list[dict]:
 
 def _degree_markers(view: SplitView, dv: DegreeView) -> list[dict]:
     """The current degree (a ring on its test RMSE) and the recommended one (a star on the verdict's)."""
+    # the ring itself is a layout shape (``degree_ring``), so that moving it redraws no trace;
+    # this trace only gives it its legend entry
     current = _line(
-        x=[dv.degree],
-        y=[_current_y(dv)],
+        x=[None],
+        y=[None],
         mode="markers",
         name=text.LEGEND_CURRENT,
         marker=dict(symbol="circle-open", size=20, color=HIGHLIGHT, line=dict(width=3)),
@@ -365,7 +356,7 @@ def error_figure(view: SplitView, dv: DegreeView) -> go.Figure:
     layout["yaxis"].update(log_ticks(view))
     deg = view.sweep.degrees.astype(int)
     layout["xaxis"].update(dtick=1 if deg.size <= 13 else 2, range=[-0.5, int(deg.max()) + 0.5])
-    layout["shapes"] = [_degree_band(dv.degree)]
+    layout["shapes"] = [_degree_band(dv.degree), degree_ring(dv.degree, _current_y(dv))]
     return go.Figure(data=traces, layout=layout)
 
 
@@ -392,6 +383,19 @@ def log_ticks(view: SplitView) -> dict:
         decades = range(int(np.floor(np.log10(lo))) - 1, int(np.ceil(np.log10(hi))) + 1)
         ticks = [m * 10.0**e for e in decades for m in steps]
     return dict(tickmode="array", tickvals=ticks, ticktext=[f"{v:.3g}" for v in ticks])
+
+
+RING_PX = 10  # radius of the current degree's ring on the error chart
+
+
+def degree_ring(d: int, y: float | None) -> dict:
+    """The current degree's ring on its test RMSE: a circle of fixed pixel size anchored at (d, y); hidden without y."""
+    r = RING_PX
+    return dict(
+        type="circle", xref="x", yref="y", xsizemode="pixel", ysizemode="pixel", xanchor=d,
+        yanchor=y if y is not None else 1.0, x0=-r, x1=r, y0=-r, y1=r, visible=y is not None,
+        line=dict(color=HIGHLIGHT, width=3), layer="above",
+    )  # fmt: skip
 
 
 def _degree_band(d: int) -> dict:

@@ -83,7 +83,7 @@ SPLIT_KEY = "split-key"  # the settings the charts on screen were drawn for
 HOLDOUT_BOX = "holdout-box"
 FOLDS_BOX = "folds-box"
 UPLOAD_BOX = "upload-box"  # carries data-limit for assets/degreescope.js
-DEGREE_SETTLED = "degree-settled"  # dcc.Store: the degree once it has rested (clientside debounce)
+DEGREE_SETTLED = "degree-settled"  # dcc.Store: the degree once it has rested (assets/degreescope-layers.js)
 
 # -- data panel: sheets, pasted tables, shared views ------------------------------------------
 SHEET = "sheet"  # the workbook's sheet picker

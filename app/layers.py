@@ -23,7 +23,7 @@ import base64
 
 import numpy as np
 
-from . import text
+from . import components, ids, text
 from .service import DegreeView, Density, FitService, SplitView
 
 TRAIN_SCALE = [[0.0, "#d6e4f0"], [0.5, "#6f9cc4"], [1.0, "#12365a"]]  # light to deep blue
@@ -60,7 +60,7 @@ def density_trace(xc, yc, counts, *, name: str, scale: list, opacity: float = 1.
 def density_traces(xc, yc, train, test, *, has_test: bool, what: str = "rows") -> list[dict]:
     """Training and test counts as two heatmaps, test above and half see-through; test hidden when empty."""
     tr = density_trace(xc, yc, train, name=f"training {what} (density)", scale=TRAIN_SCALE)
-    te = density_trace(xc, yc, test, name=f"test {what} (density)", scale=TEST_SCALE, opacity=0.6)
+    te = density_trace(xc, yc, test, name=f"test {what} (density)", scale=TEST_SCALE, opacity=0.45)
     te.update(visible=True if has_test else "legendonly", showlegend=has_test)
     return [tr, te]
 
@@ -71,16 +71,17 @@ def binned(x, y, test, x_range, y_range) -> Density:
 
 
 def degree_frames(service: FitService, ds: str, cols, split, view: SplitView) -> dict:
-    """Every degree's curve, bands, title and caption on the view's grid: what the browser draws on a key press.
+    """Every degree's curve, bands, title, caption, readout and alert: what the browser shows on a key press.
 
-    About 5 × 400 float32 values per degree, packed; the titles and captions are the server's
-    own words (``text``), so the browser only copies them in.
+    About 5 × 400 float32 values per degree, packed; the words are the server's own (``text``,
+    ``components.alert``), so the browser only copies them in.
     """
-    from .figures import caption_text, fit_title
+    from .figures import caption_text, fit_caption, fit_title
 
     frames = {}
     for d in range(view.max_degree + 1):
         dv: DegreeView = service.degree_view(ds, cols, split, d)
+        alert, alert_class = components.alert(dv.warnings)
         frames[str(d)] = {
             "curve": wire(dv.curve),
             "conf_lo": wire(dv.conf_lo),
@@ -89,10 +90,23 @@ def degree_frames(service: FitService, ds: str, cols, split, view: SplitView) ->
             "pred_hi": wire(dv.pred_hi),
             "name": text.curve_label(d, view.split.mode),
             "title": fit_title(view, d),
-            "caption": caption_text(text.degree_caption(view, dv)),
+            "caption": caption_text(text.degree_caption(view, dv)),  # the error chart's
+            "fit_caption": caption_text(fit_caption(view, dv)),
             "test_rmse": dv.test_rmse if np.isfinite(dv.test_rmse) else None,
+            "readout": text.degree_readout(dv),
+            "alert": [c.to_plotly_json() for c in alert],
+            "alert_class": alert_class,
         }
-    return {"max": view.max_degree, "frames": frames}
+    traces = {
+        "curve": ids.FIT_TRACE_CURVE, "pred_lo": ids.FIT_TRACE_PRED_LO, "pred_hi": ids.FIT_TRACE_PRED_HI,
+        "conf_lo": ids.FIT_TRACE_CONF_LO, "conf_hi": ids.FIT_TRACE_CONF_HI,
+    }  # fmt: skip
+    return {"max": view.max_degree, "frames": frames, "traces": traces, "stamp": frames_stamp(view)}
+
+
+def frames_stamp(view: SplitView) -> str:
+    """Names the split view a curve layer and its frames were made from (the script draws only onto its own)."""
+    return f"{id(view):x}"
 
 
 def combined(points: dict, fit: dict) -> dict:

@@ -180,10 +180,6 @@ def predictions_shown(shown: int, total: int) -> str:
     return f"Showing the first {shown} of {total} predictions; the predictions CSV holds all of them."
 
 
-def sample_note(shown: int, rows: int) -> str:
-    return f"showing a random sample of {fmt_count(shown)} of {fmt_count(rows)} points; fits use every row"
-
-
 # ----------------------------------------------------------------------------
 # data panel: rows left out, the column choice, shared views, sheets and pasted tables
 
@@ -503,6 +499,14 @@ def stability_line(sentence: str, held_out: str, folds: int) -> str:
 
 def influence_heading(degree: int, n: int) -> str:
     return f"Single rows with a large say in the degree-{degree} fit of all {fmt_count(n)} rows in use"
+
+
+def influence_shown(shown: int, flagged: int) -> str:
+    """Above the influence table when it lists only the most influential of the flagged rows."""
+    return (
+        f"{fmt_count(flagged)} rows pass a threshold; the table and the rings show the {fmt_count(shown)} "
+        "with the largest Cook's distance. On many rows, some pass by chance alone."
+    )
 
 
 def no_flags(degree: int) -> str:

@@ -254,15 +254,15 @@ class Session:
             key = r["split-key"]["data"]
             self._check_points(r["fit-points"]["figure"], y)
 
-            deg_dep = p.find("overfit-alert.children", "degree.drag_value")
+            deg_dep = p.find("overfit-alert.children", "degree-settled.data")
             model_dep = p.find("stats.children", "split-key.data")
             for d in degrees:
                 dg = self.callback(
                     "degree",
                     deg_dep,
-                    {"degree.drag_value": d, "degree.value": d},
+                    {"degree-settled.data": d},
                     {"split-key.data": key},
-                    ["degree.value"],
+                    ["degree-settled.data"],
                 )
                 notice = " ".join(_texts(dg["response"].get("fit-notice", {}).get("children")))
                 if notice:

@@ -86,10 +86,10 @@ def test_degree_change_sends_the_alert_and_no_figure(fit_service, sample_dir):
     info = fit_service.load_path(sample_dir / "cubic_small_noisy.csv")
     store = info.to_store()
     key = run_split(fit_service, store)["split_key"]
-    out = degree.on_degree(fit_service, 11, 11, key, "value")
+    out = degree.on_degree(fit_service, 11, key)
     assert set(out) == {"alert", "alert_class", "readout", "notice"}
     assert out["alert_class"] == "alert alert-on" and "degree 11" in str([a.to_plotly_json() for a in out["alert"]])
-    out = degree.on_degree(fit_service, 3, 3, key, "value")
+    out = degree.on_degree(fit_service, 3, key)
     assert out["alert"] == [] and out["alert_class"] == "alert alert-off" and out["readout"].startswith("degree 3")
 
 
@@ -178,7 +178,7 @@ def test_a_degree_that_is_not_a_number_gives_a_message_not_a_traceback(sensor):
     key = run_split(service, info.to_store())["split_key"]
     for bad in (float("inf"), float("nan"), "three"):
         with pytest.raises(DegreescopeError, match="whole number from 0 to 20"):
-            degree.on_degree(service, bad, bad, key, "value")
+            degree.on_degree(service, bad, key)
         with pytest.raises(DegreescopeError, match="whole number"):
             run_split(service, info.to_store(), degree=bad)
     assert run_split(service, info.to_store(), degree=99)["degree"] == 20  # out of range: the nearest degree

@@ -77,7 +77,8 @@ def test_degree_frames_hold_every_degree_as_the_figure_draws_it(sensor):
         np.testing.assert_allclose(unpack(f["curve"]), dv.curve, rtol=1e-6)
         np.testing.assert_allclose(unpack(f["pred_hi"]), dv.pred_hi, rtol=1e-6)
         assert f["title"] == figures.fit_figure(view, dv).layout.title.text
-        assert f["caption"] == figures.fit_figure(view, dv).layout.annotations[0].text
+        assert f["fit_caption"] == figures.fit_figure(view, dv).layout.annotations[0].text
+        assert f["caption"] == figures.error_figure(view, dv).layout.annotations[0].text
     assert len(plotly.io.json.to_json_plotly(frames)) < 300_000  # curves on a grid, not the rows
 
 
@@ -85,7 +86,8 @@ def test_error_chart_marks_current_and_recommended_degree(sensor):
     service, info, cols = sensor
     view, dv = views(service, info, cols, SplitSettings(mode="kfold"), 6)
     fig = figures.error_figure(view, dv)
-    assert list(fig.data[ids.ERR_TRACE_CURRENT].x) == [6]
+    ring = fig.layout.shapes[1]
+    assert (ring.type, ring.xanchor, ring.yanchor, ring.visible) == ("circle", 6, dv.test_rmse, True)
     assert list(fig.data[ids.ERR_TRACE_RECOMMENDED].x) == [view.steady.recommended_degree]
     assert fig.data[ids.ERR_TRACE_TEST].error_y.visible is True  # SE across folds
     np.testing.assert_allclose(fig.data[ids.ERR_TRACE_TEST].error_y.array, view.sweep.test_rmse_se)
@@ -109,7 +111,7 @@ def test_many_rows_are_drawn_as_a_density_that_counts_every_row(fit_service):
     assert train.showlegend and test.showlegend and train.colorscale != test.colorscale
     assert np.sum(train.customdata) + np.sum(test.customdata) == 30_000
     assert np.sum(test.customdata) == np.sum(fit_service.split_view(info.id, Columns("a", "b"), SplitSettings()).sweep.test_mask)
-    note = figures.fit_figure(view, dv).layout.annotations[-1].text
+    note = figures.fit_figure(view, dv).layout.annotations[0].text
     assert "30,000 rows as a density: 120 × 80 bins" in note
     few = fit_service.load_bytes(("a,b\n" + "\n".join(f"{i},{i * 2}" for i in range(50))).encode(), "few.csv")
     small, _ = views(fit_service, few, Columns("a", "b"), SplitSettings(), 1)
@@ -163,9 +165,9 @@ def test_a_missing_test_rmse_is_a_gap_on_the_error_chart_not_the_minimum(sensor)
     service, info, cols = sensor
     view, dv = views(service, info, cols, SplitSettings(mode="kfold"), 4)
     fig = figures.error_figure(view, dv)
-    assert list(fig.data[ids.ERR_TRACE_CURRENT].y) == [dv.test_rmse]
+    assert fig.layout.shapes[1].yanchor == dv.test_rmse
     rec = view.recommended_degree
     assert list(fig.data[ids.ERR_TRACE_RECOMMENDED].y) == [view.steady.test_rmse[view.steady.index(rec)]]
     missing = dataclasses.replace(dv, test_rmse=float("nan"))
-    assert figures.error_figure(view, missing).data[ids.ERR_TRACE_CURRENT].y == (None,)
+    assert figures.error_figure(view, missing).layout.shapes[1].visible is False
     assert "test RMSE —" in figures.fit_figure(view, missing).layout.annotations[0].text

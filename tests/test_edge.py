@@ -228,12 +228,12 @@ def sample_key(c: Client) -> tuple[dict, dict]:
 def degree_body(c: Client, key, value, drag=None) -> bytes:
     from bench_load import Protocol
 
-    dep = c.proto.find("overfit-alert.children", "degree.drag_value")
+    dep = c.proto.find("overfit-alert.children", "degree-settled.data")
     return Protocol.body(
         dep,
-        {"degree.drag_value": drag, "degree.value": value},
+        {"degree-settled.data": value if drag is None else drag},
         {"split-key.data": key},
-        ["degree.value"],
+        ["degree-settled.data"],
     )
 
 
@@ -293,9 +293,9 @@ def test_without_the_screen_a_wrong_record_leaves_a_traceback(caplog):
     app = create_app(None)
     client = app.server.test_client()
     deps = Protocol(client.get("/_dash-dependencies").get_json())
-    dep = deps.find("overfit-alert.children", "degree.drag_value")
+    dep = deps.find("overfit-alert.children", "degree-settled.data")
     body = Protocol.body(
-        dep, {"degree.drag_value": None, "degree.value": 3}, {"split-key.data": [1, 2]}, []
+        dep, {"degree-settled.data": 3}, {"split-key.data": [1, 2]}, []
     )
     caplog.set_level(logging.WARNING)
     client.post("/_dash-update-component", data=body, content_type="application/json")

@@ -1,20 +1,22 @@
-"""The degree slider and the bands: a degree change redraws the curve layer in the browser, with no round trip.
+"""The degree slider and the bands: a key press redraws the curve layer in the browser, with no round trip.
 
-Every degree's curve and bands arrive once per split (``ids.DEGREE_FRAMES``, app/layers.py);
-a key press or a drag copies one degree's arrays into the curve layer of the fit chart (a
-clientside ``Patch``), which holds a handful of traces, so the redraw is quick whatever the
-number of rows. The error chart's current-degree mark follows two animation frames later, off
-the path of the curve, and only for the latest degree. The server answers with the alert and
-the readout only.
+Every degree's curve and bands arrive once per split (``ids.DEGREE_FRAMES``, app/layers.py).
+The page's script (``assets/degreescope-layers.js``) watches the slider's thumb and, on a key
+press or a drag, copies one degree's arrays straight into the curve layer of the fit chart (one
+``Plotly.update`` of its few traces) and moves the error chart's mark two animation frames
+later, for the latest degree only. No Dash callback and no request run on that path: each
+would cost the page several store updates.
 
-The precise fit, the predictions and the URL follow the degree once it has rested for
-SETTLE_MS (a clientside debounce into ``ids.DEGREE_SETTLED``), so that a run of key presses
-or a drag keeps the server and the browser free for the chart updates.
+Once the degree has rested for SETTLE_MS, the script writes it to ``ids.DEGREE_SETTLED``.
+Then both figures' properties are patched to what is drawn (SYNC_JS, which also hands the
+frames and bands to the script), the server checks the degree and sends the alert and the
+readout, and the model card, the predictions, the evidence and the URL follow, so that a run
+of key presses or a drag keeps the server and the browser free for the curve.
 """
 
 from __future__ import annotations
 
-from dash import Input, Output, State, ctx, dcc, html, no_update
+from dash import Input, Output, State, dcc, html, no_update
 
 from .. import components, ids, text
 from ..service import FitService
@@ -23,77 +25,40 @@ from .settings import from_key
 
 SLOT = "main"
 DEGREE_MAX_START = 20
-SETTLE_MS = 200
-SETTLE_JS = (
-    """
-async function(value) {
-    const me = (window.__degreeSettle = (window.__degreeSettle || 0) + 1);
-    await new Promise(function (r) { setTimeout(r, %d); });
-    if (me !== window.__degreeSettle) { return window.dash_clientside.no_update; }
-    return value;
-}
-"""
-    % SETTLE_MS
-)
+SETTLE_MS = 350  # longer than a key press takes to paint, so a run of presses never waits for the settled work
 
-# the degree the slider asks for: a drag sends drag_value; key presses, releases and band switches go by value
-_PICK_JS = """
+# the degree at rest, a band switch or new frames: both figures' properties patched to what is drawn
+SYNC_JS = """
+function(settled, bands, frames, value) {
     const dc = window.dash_clientside;
-    const t = (dc.callback_context && dc.callback_context.triggered) || [];
-    const byDrag = t.length > 0 && t[0].prop_id === "%s.drag_value" && drag !== null && drag !== undefined;
-    let d = byDrag ? drag : value;
-    if (d === null || d === undefined || !frames || !frames.frames) { return dc.no_update; }
-    d = Math.max(0, Math.min(frames.max, Math.round(Number(d))));
-    const f = frames.frames[String(d)];
-    if (!f) { return dc.no_update; }
-""" % ids.DEGREE
-
-CURVE_JS = (
-    """
-function(drag, value, bands, frames) {
-%s
+    if (window.degreescopeLayers) { window.degreescopeLayers.use(frames, bands); }
+    const raw = (value !== null && value !== undefined) ? value : settled;
+    if (raw === null || raw === undefined || !frames || !frames.frames) { return [dc.no_update, dc.no_update]; }
+    const d = Math.max(0, Math.min(frames.max, Math.round(Number(raw))));
+    const f = frames.frames[String(d)], ix = frames.traces;
+    if (!f) { return [dc.no_update, dc.no_update]; }
     const shown = bands || [];
     const pred = shown.indexOf("prediction") >= 0, conf = shown.indexOf("confidence") >= 0;
     const p = new dc.Patch();
     // a hidden band keeps its old values (plotly skips hidden traces); it is sent when shown
-    if (pred) { p.assign(["data", %d, "y"], f.pred_lo); p.assign(["data", %d, "y"], f.pred_hi); }
-    if (conf) { p.assign(["data", %d, "y"], f.conf_lo); p.assign(["data", %d, "y"], f.conf_hi); }
-    [%d, %d].forEach(function (i) { p.assign(["data", i, "visible"], pred); });
-    [%d, %d].forEach(function (i) { p.assign(["data", i, "visible"], conf); });
-    p.assign(["data", %d, "y"], f.curve);
-    p.assign(["data", %d, "name"], f.name);
+    if (pred) { p.assign(["data", ix.pred_lo, "y"], f.pred_lo); p.assign(["data", ix.pred_hi, "y"], f.pred_hi); }
+    if (conf) { p.assign(["data", ix.conf_lo, "y"], f.conf_lo); p.assign(["data", ix.conf_hi, "y"], f.conf_hi); }
+    [ix.pred_lo, ix.pred_hi].forEach(function (i) { p.assign(["data", i, "visible"], pred); });
+    [ix.conf_lo, ix.conf_hi].forEach(function (i) { p.assign(["data", i, "visible"], conf); });
+    p.assign(["data", ix.curve, "y"], f.curve);
+    p.assign(["data", ix.curve, "name"], f.name);
     p.assign(["layout", "title", "text"], f.title);
-    p.assign(["layout", "annotations", 0, "text"], f.caption);
-    return p.build();
+    p.assign(["layout", "annotations", 0, "text"], f.fit_caption);
+    const e = new dc.Patch();  // the error chart's column and ring are shapes: a layout change only
+    e.assign(["layout", "shapes", 0, "x0"], d - 0.4);
+    e.assign(["layout", "shapes", 0, "x1"], d + 0.4);
+    e.assign(["layout", "shapes", 1, "xanchor"], d);
+    e.assign(["layout", "shapes", 1, "yanchor"], f.test_rmse === null ? 1 : f.test_rmse);
+    e.assign(["layout", "shapes", 1, "visible"], f.test_rmse !== null);
+    e.assign(["layout", "annotations", 0, "text"], f.caption);
+    return [p.build(), e.build()];
 }
 """
-    % (
-        _PICK_JS,
-        ids.FIT_TRACE_PRED_LO, ids.FIT_TRACE_PRED_HI, ids.FIT_TRACE_CONF_LO, ids.FIT_TRACE_CONF_HI,
-        ids.FIT_TRACE_PRED_LO, ids.FIT_TRACE_PRED_HI, ids.FIT_TRACE_CONF_LO, ids.FIT_TRACE_CONF_HI,
-        ids.FIT_TRACE_CURVE, ids.FIT_TRACE_CURVE,
-    )  # fmt: skip
-)
-
-# the error chart's mark: two animation frames after the curve, and only for the latest degree
-MARK_JS = (
-    """
-async function(drag, value, frames) {
-%s
-    const me = (window.__degreeMark = (window.__degreeMark || 0) + 1);
-    await new Promise(function (r) { requestAnimationFrame(function () { requestAnimationFrame(r); }); });
-    if (me !== window.__degreeMark) { return dc.no_update; }
-    const p = new dc.Patch();
-    p.assign(["data", %d, "x"], [d]);
-    p.assign(["data", %d, "y"], [f.test_rmse]);
-    p.assign(["layout", "shapes", 0, "x0"], d - 0.4);
-    p.assign(["layout", "shapes", 0, "x1"], d + 0.4);
-    p.assign(["layout", "annotations", 0, "text"], f.caption);
-    return p.build();
-}
-"""
-    % (_PICK_JS, ids.ERR_TRACE_CURRENT, ids.ERR_TRACE_CURRENT)
-)
 
 
 def layout(cfg: PageConfig) -> html.Section:
@@ -122,7 +87,8 @@ def layout(cfg: PageConfig) -> html.Section:
         inline=True,
         className="bands",
     )
-    return html.Section([head, slider, bands], className="panel degree-panel")
+    # the page's script (assets/degreescope-layers.js) draws a key press and writes the settled degree
+    return html.Section([head, slider, bands], className="panel degree-panel", **{"data-settle-ms": SETTLE_MS})
 
 
 OUTPUT = dict(
@@ -131,14 +97,13 @@ OUTPUT = dict(
     readout=Output(ids.DEGREE_READOUT, "children", allow_duplicate=True),
     notice=Output(ids.FIT_NOTICE, "children", allow_duplicate=True),
 )
-INPUTS = dict(drag_value=Input(ids.DEGREE, "drag_value"), value=Input(ids.DEGREE, "value"))
+INPUTS = dict(value=Input(ids.DEGREE_SETTLED, "data"))
 STATE = dict(key=State(ids.SPLIT_KEY, "data"))
 
 
-def on_degree(service: FitService, drag_value, value, key, triggered: str | None = None) -> dict:
-    """The alert and the readout for a new degree (the charts follow in the browser: CURVE_JS, MARK_JS)."""
-    # a drag sends drag_value; key presses, releases and band switches go by value
-    d = drag_value if triggered == "drag_value" and drag_value is not None else value
+def on_degree(service: FitService, value, key) -> dict:
+    """The alert and the readout for the degree at rest, checked on the server (CURVE_JS shows them at once)."""
+    d = value
     if d is None or not key:
         return {name: no_update for name in OUTPUT}
     ds, cols, split = from_key(key)
@@ -152,36 +117,22 @@ def on_degree(service: FitService, drag_value, value, key, triggered: str | None
     )
 
 
-def _triggered_prop() -> str:
-    """ "drag_value" when the slider's drag fired this call, else "value"."""
-    if ctx.triggered_id == ids.DEGREE and ctx.triggered:
-        return ctx.triggered[0]["prop_id"].split(".")[-1]
-    return "value"
-
-
 def register(app, service: FitService) -> None:
-    """Wire the alert and readout, the clientside curve and mark, and the clientside settle of the degree."""
+    """Wire the alert and readout at rest, the clientside draw of a key press, the settle and the figure sync."""
     app.callback(
         output=OUTPUT,
         inputs=INPUTS,
         state=STATE,
         prevent_initial_call=True,
         on_error=notice_on_error(OUTPUT, "notice"),
-    )(lambda **kw: on_degree(service, triggered=_triggered_prop(), **kw))
-    app.clientside_callback(SETTLE_JS, Output(ids.DEGREE_SETTLED, "data"), Input(ids.DEGREE, "value"))
-    degree_in = [Input(ids.DEGREE, "drag_value"), Input(ids.DEGREE, "value")]
+    )(lambda **kw: on_degree(service, **kw))
     app.clientside_callback(
-        CURVE_JS,
+        SYNC_JS,
         Output(ids.FIT_CHART, "figure", allow_duplicate=True),
-        *degree_in,
+        Output(ids.ERROR_CHART, "figure", allow_duplicate=True),
+        Input(ids.DEGREE_SETTLED, "data"),
         Input(ids.BANDS, "value"),
         Input(ids.DEGREE_FRAMES, "data"),
-        prevent_initial_call=True,
-    )
-    app.clientside_callback(
-        MARK_JS,
-        Output(ids.ERROR_CHART, "figure", allow_duplicate=True),
-        *degree_in,
-        Input(ids.DEGREE_FRAMES, "data"),
+        State(ids.DEGREE, "value"),
         prevent_initial_call=True,
     )
