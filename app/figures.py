@@ -15,9 +15,8 @@ import html
 
 import numpy as np
 import plotly.graph_objects as go
-from dash import Patch
 
-from . import ids, layers, text
+from . import layers, text
 from .service import DENSITY_FROM, DegreeView, ModelView, SplitView
 
 INK = "#1c2a35"

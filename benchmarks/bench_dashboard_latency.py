@@ -66,7 +66,6 @@ def reference_app(path: Path):
     from dash import Input, Output, Patch, State, dcc, html
 
     from app.service import Columns, FitService, SplitSettings
-
     from app.store import DatasetStore
 
     service = FitService(DatasetStore(), upload_limit_bytes=1 << 30)
@@ -188,11 +187,11 @@ def main(argv=None) -> int:
             path = wide_file(rows)
             meds = {}
             for name, make, idx in (
-                ("degreescope", lambda: dashboard.create_app(str(path)), ids.FIT_TRACE_CURVE),
-                ("one-figure reference", lambda: reference_app(path), 4),
+                ("degreescope", lambda p: dashboard.create_app(str(p)), ids.FIT_TRACE_CURVE),
+                ("one-figure reference", reference_app, 4),
             ):
                 print(f"{rows:,} rows, {name}:", flush=True)
-                srv = ServerThread(make().server).start()
+                srv = ServerThread(make(path).server).start()
                 try:
                     line, meds[name] = summary(f"  {name}", measure(browser, srv.url, idx, args.presses))
                 finally:

@@ -7,7 +7,6 @@ import json
 
 import numpy as np
 import pytest
-from dash import Patch
 
 import app
 from app import ids

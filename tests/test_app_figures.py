@@ -110,7 +110,7 @@ def test_many_rows_are_drawn_as_a_density_that_counts_every_row(fit_service):
     assert isinstance(train, go.Heatmap) and isinstance(test, go.Heatmap)
     assert train.showlegend and test.showlegend and train.colorscale != test.colorscale
     assert np.sum(train.customdata) + np.sum(test.customdata) == 30_000
-    assert np.sum(test.customdata) == np.sum(fit_service.split_view(info.id, Columns("a", "b"), SplitSettings()).sweep.test_mask)
+    assert np.sum(test.customdata) == np.sum(view.sweep.test_mask)
     note = figures.fit_figure(view, dv).layout.annotations[0].text
     assert "30,000 rows as a density: 120 × 80 bins" in note
     few = fit_service.load_bytes(("a,b\n" + "\n".join(f"{i},{i * 2}" for i in range(50))).encode(), "few.csv")

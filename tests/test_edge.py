@@ -294,9 +294,7 @@ def test_without_the_screen_a_wrong_record_leaves_a_traceback(caplog):
     client = app.server.test_client()
     deps = Protocol(client.get("/_dash-dependencies").get_json())
     dep = deps.find("overfit-alert.children", "degree-settled.data")
-    body = Protocol.body(
-        dep, {"degree-settled.data": 3}, {"split-key.data": [1, 2]}, []
-    )
+    body = Protocol.body(dep, {"degree-settled.data": 3}, {"split-key.data": [1, 2]}, [])
     caplog.set_level(logging.WARNING)
     client.post("/_dash-update-component", data=body, content_type="application/json")
     assert tracebacks(caplog) != []
