@@ -226,7 +226,7 @@ SCHEMA.update(
         (ids.LEAVE_OUT_BUTTON, "n_clicks"): optional(WHOLE),
         (ids.RING_FIT, "data"): record({"meta": TEXT}),
         (ids.RING_RESIDUAL, "data"): record({"meta": TEXT}),
-        (ids.FIT_CHART, "clickData"): record({"points": Kind("a list", lambda v: isinstance(v, list))}),
+        (ids.FIT_POINTS, "clickData"): record({"points": Kind("a list", lambda v: isinstance(v, list))}),
         (ids.STABILITY_GO, "data"): optional(WHOLE),
     }
 )

@@ -15,10 +15,9 @@ import html
 
 import numpy as np
 import plotly.graph_objects as go
-from dash import Patch
 
-from . import ids, text
-from .service import DegreeView, ModelView, SplitView
+from . import layers, text
+from .service import DENSITY_FROM, DegreeView, ModelView, SplitView
 
 INK = "#1c2a35"
 GRID = "#e3e0d8"
@@ -32,7 +31,6 @@ EXTRAP_FILL = "rgba(217, 115, 13, 0.08)"
 STEADY = "#5e6b75"
 HIGHLIGHT = "#b8002e"
 FONT = '"Source Sans 3", "Segoe UI", "Noto Sans", "DejaVu Sans", Arial, sans-serif'
-WEBGL_FROM = 5_000  # points per trace above which WebGL is used
 
 CONFIDENCE = "confidence"
 PREDICTION = "prediction"
@@ -112,17 +110,8 @@ def _trace(kind: str):
 _line = _trace("scatter")
 
 
-def _scatter(n: int):
-    return _trace("scattergl" if n > WEBGL_FROM else "scatter")
-
-
 def _list(a) -> list:
     return np.asarray(a, dtype=float).tolist()
-
-
-def _wire(a) -> np.ndarray:
-    """Curve values for a partial update: float32 is ample on screen and plotly ships it base64-packed."""
-    return np.asarray(a, dtype=np.float32)
 
 
 def wrapped_text(text, width: int) -> str:
@@ -147,11 +136,11 @@ def fit_title(view: SplitView, degree: int) -> str:
 
 
 def _point_traces(view: SplitView) -> list[dict]:
-    """Training points (filled circles, blue) and test points (open diamonds, amber)."""
-    n_pts = view.train_x.size + view.test_x.size
-    sc = _scatter(n_pts)
-    small = n_pts <= 2000
-    train = sc(
+    """Training points (filled circles, blue) and test points (open diamonds, amber), or their densities."""
+    if view.dense:
+        return _density_traces(view)
+    small = view.points_shown <= 2000
+    train = _line(
         x=view.train_x,
         y=view.train_y,
         mode="markers",
@@ -165,7 +154,7 @@ def _point_traces(view: SplitView) -> list[dict]:
         ),
         hovertemplate="x %{x:.6g}<br>y %{y:.6g}<extra>training</extra>",
     )
-    test = sc(
+    test = _line(
         x=view.test_x,
         y=view.test_y,
         mode="markers",
@@ -176,6 +165,12 @@ def _point_traces(view: SplitView) -> list[dict]:
         hovertemplate="x %{x:.6g}<br>y %{y:.6g}<extra>test</extra>",
     )
     return [train, test]
+
+
+def _density_traces(view: SplitView) -> list[dict]:
+    """Training rows and test rows as two densities over the chart's ranges (every row counted)."""
+    d = view.density
+    return layers.density_traces(d.x, d.y, d.train, d.test, has_test=view.has_test_points)
 
 
 def _band_pair(grid: list, lo, hi, *, shown: bool, fill: str, name: str, lower_name: str) -> list[dict]:
@@ -227,61 +222,62 @@ def _extrapolation_zones(view: SplitView) -> tuple[list[dict], list[dict]]:
     return shapes, notes
 
 
-def _sample_annotation(view: SplitView) -> dict:
-    return dict(
-        text=text.sample_note(view.points_shown, view.rows_used),
-        xref="paper",
-        yref="paper",
-        x=1,
-        y=1.0,
-        xanchor="right",
-        yanchor="bottom",
-        showarrow=False,
-        font=dict(size=11, color="#44525c"),
-        bgcolor="rgba(255,253,248,0.8)",
-    )
+def _x_range(view: SplitView) -> list[float]:
+    return [float(view.grid[0]), float(view.grid[-1])]
+
+
+def _y_range(view: SplitView) -> list[float]:
+    """The y range from the rows (not from a wild curve), with room."""
+    return [float(v) for v in view.y_range]
+
+
+def _layer_layout(view: SplitView, title: str, caption) -> dict:
+    """The layout both layers share: same margins (never widened by plotly) and the same axis ranges."""
+    layout = _base_layout(title, plot_text(view.x_label), wrapped_text(view.y_label, 40), caption)
+    layout["margin"].update(autoexpand=False, t=104, b=116)  # room for two legend rows and a third caption line
+    layout["yaxis"]["range"] = _y_range(view)
+    layout["xaxis"]["range"] = _x_range(view)
+    return layout
+
+
+def points_figure(view: SplitView) -> go.Figure:
+    """The points layer: the rows (or their density) and the grid, under the curve layer."""
+    layout = _layer_layout(view, "", ())
+    layout.update(title=dict(text=""), annotations=[], legend=dict(layout["legend"], y=1.085))
+    for axis in ("xaxis", "yaxis"):
+        layout[axis].update(title=dict(text=""), showticklabels=False, showline=False)
+    return go.Figure(data=_point_traces(view), layout=layout)
+
+
+def fit_caption(view: SplitView, dv: DegreeView) -> tuple[str, ...]:
+    """The fit chart's caption: the numbers at this degree, the split, and how the rows are drawn."""
+    lines = text.degree_caption(view, dv)
+    if view.dense:
+        d = view.density
+        return (*lines, text.density_note(view.rows_used, d.train.shape[1], d.train.shape[0], d.x_step, d.y_step))
+    return lines  # fewer rows than DENSITY_FROM: every row is drawn
 
 
 def fit_figure(view: SplitView, dv: DegreeView, bands=(CONFIDENCE,)) -> go.Figure:
-    """Points (training and test), the display fit, its bands and the extrapolation zones."""
-    traces = _point_traces(view) + _curve_traces(view, dv, set(bands or ()))
-    caption = text.degree_caption(view, dv)
-    layout = _base_layout(fit_title(view, dv.degree), plot_text(view.x_label), wrapped_text(view.y_label, 40), caption)
-    # y range from the points (not from a wild curve), with room
-    ys = np.concatenate([view.train_y, view.test_y])
-    ylo, yhi = float(ys.min()), float(ys.max())
-    pad = 0.12 * (yhi - ylo or 1.0)
-    layout["yaxis"]["range"] = [ylo - pad, yhi + pad]
-    layout["xaxis"]["range"] = [float(view.grid[0]), float(view.grid[-1])]
+    """The curve layer: the display fit, its bands, the extrapolation zones, axes, title and caption.
+
+    Transparent, so that the points layer (``points_figure``) shows through beneath it.
+    """
+    layout = _layer_layout(view, fit_title(view, dv.degree), fit_caption(view, dv))
+    layout.update(paper_bgcolor="rgba(0,0,0,0)", plot_bgcolor="rgba(0,0,0,0)")
+    for axis in ("xaxis", "yaxis"):
+        layout[axis].update(showgrid=False)
     shapes, notes = _extrapolation_zones(view)
     layout["shapes"] = shapes
     layout["annotations"] = layout["annotations"] + notes
-    if view.sampled:
-        layout["annotations"].append(_sample_annotation(view))
-        layout["legend"]["y"] = 1.06
-    return go.Figure(data=traces, layout=layout)
+    layout["meta"] = {"frames": layers.frames_stamp(view)}
+    return go.Figure(data=_curve_traces(view, dv, set(bands or ())), layout=layout)
 
 
-def fit_degree_patch(view: SplitView, dv: DegreeView, bands=(CONFIDENCE,)) -> Patch:
-    """Partial update of the fit chart for a new degree: curve, bands, title, caption."""
-    bands = set(bands or ())
-    p = Patch()
-    # a hidden band keeps its old values (plotly skips hidden traces); it is sent when shown
-    if PREDICTION in bands:
-        p["data"][ids.FIT_TRACE_PRED_LO]["y"] = _wire(dv.pred_lo)
-        p["data"][ids.FIT_TRACE_PRED_HI]["y"] = _wire(dv.pred_hi)
-    if CONFIDENCE in bands:
-        p["data"][ids.FIT_TRACE_CONF_LO]["y"] = _wire(dv.conf_lo)
-        p["data"][ids.FIT_TRACE_CONF_HI]["y"] = _wire(dv.conf_hi)
-    p["data"][ids.FIT_TRACE_CURVE]["y"] = _wire(dv.curve)
-    p["data"][ids.FIT_TRACE_CURVE]["name"] = text.curve_label(dv.degree, view.split.mode)
-    for i in (ids.FIT_TRACE_PRED_LO, ids.FIT_TRACE_PRED_HI):
-        p["data"][i]["visible"] = PREDICTION in bands
-    for i in (ids.FIT_TRACE_CONF_LO, ids.FIT_TRACE_CONF_HI):
-        p["data"][i]["visible"] = CONFIDENCE in bands
-    p["layout"]["title"]["text"] = fit_title(view, dv.degree)
-    p["layout"]["annotations"][0]["text"] = caption_text(text.degree_caption(view, dv))
-    return p
+def fit_chart_layers(view: SplitView, dv: DegreeView, bands=(CONFIDENCE,)) -> go.Figure:
+    """Both layers as one figure, for images and the HTML report."""
+    both = layers.combined(points_figure(view).to_plotly_json(), fit_figure(view, dv, bands).to_plotly_json())
+    return go.Figure(both)
 
 
 def error_title(view: SplitView) -> str:
@@ -326,9 +322,11 @@ def _error_traces(view: SplitView) -> list[dict]:
 
 def _degree_markers(view: SplitView, dv: DegreeView) -> list[dict]:
     """The current degree (a ring on its test RMSE) and the recommended one (a star on the verdict's)."""
+    # the ring itself is a layout shape (``degree_ring``), so that moving it redraws no trace;
+    # this trace only gives it its legend entry
     current = _line(
-        x=[dv.degree],
-        y=[_current_y(dv)],
+        x=[None],
+        y=[None],
         mode="markers",
         name=text.LEGEND_CURRENT,
         marker=dict(symbol="circle-open", size=20, color=HIGHLIGHT, line=dict(width=3)),
@@ -353,22 +351,50 @@ def error_figure(view: SplitView, dv: DegreeView) -> go.Figure:
     """Training and test RMSE per degree, the verdict sweep, the current and recommended degree."""
     traces = _error_traces(view) + _degree_markers(view, dv)
     layout = _base_layout(error_title(view), "polynomial degree", _rmse_title(view), text.degree_caption(view, dv))
-    layout["yaxis"].update(
-        type="log", dtick=1, minor=dict(ticks="inside", ticklen=4, showgrid=True, gridcolor="#f1eee7")
-    )
+    layout["yaxis"].update(type="log", minor=dict(ticks="inside", ticklen=4, showgrid=True, gridcolor="#f1eee7"))
+    layout["yaxis"].update(log_ticks(view))
     deg = view.sweep.degrees.astype(int)
     layout["xaxis"].update(dtick=1 if deg.size <= 13 else 2, range=[-0.5, int(deg.max()) + 0.5])
-    layout["shapes"] = [_degree_band(dv.degree)]
+    layout["shapes"] = [_degree_band(dv.degree), degree_ring(dv.degree, _current_y(dv))]
     return go.Figure(data=traces, layout=layout)
 
 
-def error_degree_patch(view: SplitView, dv: DegreeView) -> Patch:
-    p = Patch()
-    p["data"][ids.ERR_TRACE_CURRENT]["x"] = [dv.degree]
-    p["data"][ids.ERR_TRACE_CURRENT]["y"] = [_current_y(dv)]
-    p["layout"]["shapes"][0] = _degree_band(dv.degree)
-    p["layout"]["annotations"][0]["text"] = caption_text(text.degree_caption(view, dv))
-    return p
+def log_ticks(view: SplitView) -> dict:
+    """Tick values and labels for the log RMSE axis that always show numbers.
+
+    Whole decades when the RMSEs span three decades or more; 1-2-5 steps from one decade up;
+    1 to 9 steps under a decade, where a log axis with decade ticks alone would show no number.
+    """
+    vals = np.concatenate([view.sweep.train_rmse, view.sweep.test_rmse, view.steady.test_rmse])
+    vals = vals[np.isfinite(vals) & (vals > 0)]
+    if vals.size == 0:
+        return dict(dtick=1)
+    lo, hi = float(vals.min()), float(vals.max())
+    span = np.log10(hi / lo)
+    if span >= 3:
+        return dict(dtick=1)
+    if span < 0.5:  # a narrow range: evenly spaced round values, about five of them
+        raw = (hi - lo) / 4 or hi / 10
+        step = min((m * 10.0 ** np.floor(np.log10(raw)) for m in (1, 2, 5, 10)), key=lambda v: abs(v - raw))
+        ticks = [v for v in np.arange(np.floor(lo / step) - 1, np.ceil(hi / step) + 2) * step if v > 0]
+    else:
+        steps = (1, 2, 5) if span >= 1 else tuple(range(1, 10))
+        decades = range(int(np.floor(np.log10(lo))) - 1, int(np.ceil(np.log10(hi))) + 1)
+        ticks = [m * 10.0**e for e in decades for m in steps]
+    return dict(tickmode="array", tickvals=ticks, ticktext=[f"{v:.3g}" for v in ticks])
+
+
+RING_PX = 10  # radius of the current degree's ring on the error chart
+
+
+def degree_ring(d: int, y: float | None) -> dict:
+    """The current degree's ring on its test RMSE: a circle of fixed pixel size anchored at (d, y); hidden without y."""
+    r = RING_PX
+    return dict(
+        type="circle", xref="x", yref="y", xsizemode="pixel", ysizemode="pixel", xanchor=d,
+        yanchor=y if y is not None else 1.0, x0=-r, x1=r, y0=-r, y1=r, visible=y is not None,
+        line=dict(color=HIGHLIGHT, width=3), layer="above",
+    )  # fmt: skip
 
 
 def _degree_band(d: int) -> dict:
@@ -405,30 +431,31 @@ def _rmse_title(view: SplitView) -> str:
     return plot_text(f"RMSE ({view.y_unit}, log scale)" if view.y_unit else "RMSE (log scale)")
 
 
+def _residual_traces(view: SplitView, model: ModelView) -> list[dict]:
+    """Residual markers, training then test; above DENSITY_FROM points, their densities."""
+    n_tr = view.train_x.size
+    rx, res = model.residual_x, model.residuals
+    if rx.size > DENSITY_FROM:
+        test = np.arange(rx.size) >= n_tr
+        lo, hi = float(np.min(res)), float(np.max(res))
+        pad = 0.08 * (hi - lo or 1.0)
+        d = layers.binned(rx, res, test, _x_range(view), (lo - pad, hi + pad))
+        return layers.density_traces(d.x, d.y, d.train, d.test, has_test=bool(test.any()), what="residuals")
+    traces = [
+        _line(x=rx[:n_tr], y=res[:n_tr], mode="markers", name="training",
+              marker=dict(symbol="circle", size=6, color=TRAIN, opacity=0.8))
+    ]  # fmt: skip
+    if rx.size > n_tr:
+        traces.append(
+            _line(x=rx[n_tr:], y=res[n_tr:], mode="markers", name="test",
+                  marker=dict(symbol="diamond-open", size=8, color=TEST, line=dict(width=1.6)))
+        )  # fmt: skip
+    return traces
+
+
 def residual_figure(view: SplitView, model: ModelView) -> go.Figure:
     """Residuals (y − fit) against x for the chart's points."""
-    n_tr = view.train_x.size
-    sc = _scatter(model.residual_x.size)
-    traces: list[dict] = []
-    traces.append(
-        sc(
-            x=model.residual_x[:n_tr],
-            y=model.residuals[:n_tr],
-            mode="markers",
-            name="training",
-            marker=dict(symbol="circle", size=6 if n_tr < 2000 else 3, color=TRAIN, opacity=0.8),
-        )
-    )
-    if model.residual_x.size > n_tr:
-        traces.append(
-            sc(
-                x=model.residual_x[n_tr:],
-                y=model.residuals[n_tr:],
-                mode="markers",
-                name="test",
-                marker=dict(symbol="diamond-open", size=8 if n_tr < 2000 else 4, color=TEST, line=dict(width=1.6)),
-            )
-        )
+    traces = _residual_traces(view, model)
     unit = f" ({view.y_unit})" if view.y_unit else ""
     layout = _base_layout(
         f"Residuals at degree {model.fit.degree}",

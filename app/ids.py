@@ -63,13 +63,15 @@ DOWNLOAD = "download"
 EXPORT_NOTICE = "export-notice"
 
 # -- chart trace order (figures.py builds them in this order; Patch indexes them) -----
-FIT_TRACE_TRAIN = 0
-FIT_TRACE_TEST = 1
-FIT_TRACE_PRED_LO = 2
-FIT_TRACE_PRED_HI = 3
-FIT_TRACE_CONF_LO = 4
-FIT_TRACE_CONF_HI = 5
-FIT_TRACE_CURVE = 6
+# the fit chart's points layer (FIT_POINTS): training, then test (markers or densities)
+POINTS_TRACE_TRAIN = 0
+POINTS_TRACE_TEST = 1
+# the fit chart's curve layer (FIT_CHART)
+FIT_TRACE_PRED_LO = 0
+FIT_TRACE_PRED_HI = 1
+FIT_TRACE_CONF_LO = 2
+FIT_TRACE_CONF_HI = 3
+FIT_TRACE_CURVE = 4
 ERR_TRACE_TRAIN = 0
 ERR_TRACE_TEST = 1
 ERR_TRACE_STEADY = 2
@@ -81,7 +83,7 @@ SPLIT_KEY = "split-key"  # the settings the charts on screen were drawn for
 HOLDOUT_BOX = "holdout-box"
 FOLDS_BOX = "folds-box"
 UPLOAD_BOX = "upload-box"  # carries data-limit for assets/degreescope.js
-DEGREE_SETTLED = "degree-settled"  # dcc.Store: the degree once it has rested (clientside debounce)
+DEGREE_SETTLED = "degree-settled"  # dcc.Store: the degree once it has rested (assets/degreescope-layers.js)
 
 # -- data panel: sheets, pasted tables, shared views ------------------------------------------
 SHEET = "sheet"  # the workbook's sheet picker
@@ -145,3 +147,8 @@ STANDARDS_MARKS = "standards-marks"  # dcc.Store: the marker trace of failing st
 # -- chart keys: every mark of a chart in plain words (panels/charts.py) ----------------
 FIT_KEY = "fit-key"
 ERROR_KEY = "error-key"
+
+# -- the fit chart's layers (app/layers.py) ------------------------------------------
+FIT_POINTS = "fit-points"  # the points layer under FIT_CHART
+FIT_STACK = "fit-stack"  # the box that stacks the two layers
+DEGREE_FRAMES = "degree-frames"  # dcc.Store: every degree's curve and bands, sent once per split

@@ -53,6 +53,7 @@ __all__ = [
     "FitService",
     "DatasetInfo",
     "SplitView",
+    "Density",
     "DegreeView",
     "ModelView",
     "PredictionView",
@@ -69,6 +70,9 @@ __all__ = [
 
 SAMPLE_PATH = Path(__file__).resolve().parent.parent / "sample_data" / "sensor_calibration.csv"
 MAX_POINTS = 20_000  # points drawn on the chart; fits always use every row
+DENSITY_FROM = 3_000  # rows above which the charts draw a density (counts in bins) instead of markers
+DENSITY_BINS = (120, 80)  # bins across x and y
+Y_PAD = 0.12  # share of the y range of the rows added above and below on the fit chart
 GRID_POINTS = 400
 PAD = 0.06  # share of the x range drawn beyond the data on each side
 MAX_PREDICT_VALUES = 1_000
@@ -214,6 +218,33 @@ class DatasetInfo:
 
 
 @dataclass(frozen=True, eq=False)
+class Density:
+    """Rows counted in DENSITY_BINS bins over the fit chart's ranges: training and test apart."""
+
+    x: np.ndarray  # bin centres along x
+    y: np.ndarray  # bin centres along y
+    train: np.ndarray  # counts, shape (len(y), len(x))
+    test: np.ndarray
+    x_step: float
+    y_step: float
+
+    @staticmethod
+    def of(x: np.ndarray, y: np.ndarray, test: np.ndarray, x_range, y_range, bins=DENSITY_BINS) -> Density:
+        """The counts of the training rows (``~test``) and of the test rows of (x, y)."""
+        rng = [list(x_range), list(y_range)]
+        train_c, xe, ye = np.histogram2d(x[~test], y[~test], bins=bins, range=rng)
+        test_c, _, _ = np.histogram2d(x[test], y[test], bins=bins, range=rng)
+        return Density(
+            x=(xe[:-1] + xe[1:]) / 2,
+            y=(ye[:-1] + ye[1:]) / 2,
+            train=train_c.T,
+            test=test_c.T,
+            x_step=float(xe[1] - xe[0]),
+            y_step=float(ye[1] - ye[0]),
+        )
+
+
+@dataclass(frozen=True, eq=False)
 class SplitView:
     """The chosen split's sweep, the verdict sweep and the points on the chart."""
 
@@ -241,6 +272,13 @@ class SplitView:
     sweep: DegreeSweep  # the chosen split's sweep
     steady: DegreeSweep  # the verdict sweep the recommendation rests on
     max_degree: int
+    y_range: tuple[float, float] = (0.0, 1.0)  # the fit chart's y axis: every row's y, padded
+    density: Density | None = None  # every row in bins, when more than DENSITY_FROM rows
+
+    @property
+    def dense(self) -> bool:
+        """True when the charts draw a density instead of markers."""
+        return self.density is not None
 
     @property
     def recommended_degree(self) -> int:
@@ -671,6 +709,11 @@ class FitService:
         tr, te = idx[~test[idx]], idx[test[idx]]
         lo, hi = float(x.min()), float(x.max())
         tlo, thi = (float(v) for v in sweep.display_domain)
+        grid = _grid(lo, hi, tlo, thi)
+        ylo, yhi = float(y.min()), float(y.max())
+        pad = Y_PAD * (yhi - ylo or 1.0)
+        y_range = (ylo - pad, yhi + pad)
+        dens = Density.of(x, y, test, (grid[0], grid[-1]), y_range) if x.size > DENSITY_FROM else None
         return SplitView(
             columns=cols,
             split=split,
@@ -689,10 +732,12 @@ class FitService:
             has_test_points=bool(te.size),
             data_range=(lo, hi),
             training_range=(tlo, thi),
-            grid=_grid(lo, hi, tlo, thi),
+            grid=grid,
             sweep=sweep,
             steady=self.steady_sweep(ds_id, cols),
             max_degree=int(min(MAX_DEGREE, int(sweep.degrees.max()))),
+            y_range=y_range,
+            density=dens,
         )
 
     # -- one degree -----------------------------------------------------------------

@@ -198,10 +198,6 @@ def predictions_shown(shown: int, total: int) -> str:
     return f"Showing the first {shown} of {total} predictions; the predictions CSV holds all of them."
 
 
-def sample_note(shown: int, rows: int) -> str:
-    return f"showing a random sample of {fmt_count(shown)} of {fmt_count(rows)} points; fits use every row"
-
-
 # ----------------------------------------------------------------------------
 # data panel: rows left out, the column choice, shared views, sheets and pasted tables
 
@@ -434,11 +430,17 @@ def error_chart_key(view: SplitView) -> str:
     )
 
 
-def fit_chart_key(mode: str) -> str:
+def fit_chart_key(mode: str, dense: bool = False) -> str:
     """One plain sentence for the fit chart's marks."""
     curve = "every row" if mode == "kfold" else "the training rows only"
+    rows = (
+        "Blue shading: where the training rows lie, amber: the held-out rows (darker = more rows; click a name in "
+        "the legend to hide or show it)."
+        if dense
+        else "Blue circles: training rows; amber diamonds: held-out rows."
+    )
     return (
-        f"Blue circles: training rows; amber diamonds: held-out rows. The dark curve is fitted on {curve}; the "
+        f"{rows} The dark curve is fitted on {curve}; the "
         "blue band is its 95 % confidence band, the grey one its 95 % prediction band; shaded edges lie "
         "beyond the x range of those rows (extrapolation). The model card and the downloads use the fit on "
         "every row."
@@ -523,6 +525,14 @@ def stability_line(sentence: str, held_out: str, folds: int) -> str:
 
 def influence_heading(degree: int, n: int) -> str:
     return f"Single rows with a large say in the degree-{degree} fit of all {fmt_count(n)} rows in use"
+
+
+def influence_shown(shown: int, flagged: int) -> str:
+    """Above the influence table when it lists only the most influential of the flagged rows."""
+    return (
+        f"{fmt_count(flagged)} rows pass a threshold; the table and the rings show the {fmt_count(shown)} "
+        "with the largest Cook's distance. On many rows, some pass by chance alone."
+    )
 
 
 def no_flags(degree: int) -> str:
@@ -737,3 +747,11 @@ def standard_note(x: float, note: str | None) -> str:
     if x == 0 and "Blank" not in note:
         return f"Blank (x = 0): not judged. {note}".strip()
     return note
+
+
+def density_note(rows: int, nx: int, ny: int, x_step: float, y_step: float) -> str:
+    """The binning of a density chart, in the chart's corner."""
+    return (
+        f"{fmt_count(rows)} rows as a density: {nx} × {ny} bins of {x_step:.3g} (x) by {y_step:.3g} (y); "
+        "darker = more rows"
+    )

@@ -232,7 +232,7 @@ class Session:
             if dataset.get("name") != f"session-{k}.csv":
                 res.crosstalk.append(f"session {k}: upload answered with dataset {dataset.get('name')!r}")
 
-            split_dep = p.find("fit-chart.figure", "dataset.data")
+            split_dep = p.find("fit-points.figure", "dataset.data")
             inputs = {
                 "dataset.data": dataset,
                 "x-column.value": "x",
@@ -252,17 +252,17 @@ class Session:
             if fit_notice:
                 raise RuntimeError(f"split failed: {fit_notice}")
             key = r["split-key"]["data"]
-            self._check_points(r["fit-chart"]["figure"], y)
+            self._check_points(r["fit-points"]["figure"], y)
 
-            deg_dep = p.find("fit-chart.figure", "degree.drag_value")
+            deg_dep = p.find("overfit-alert.children", "degree-settled.data")
             model_dep = p.find("stats.children", "split-key.data")
             for d in degrees:
                 dg = self.callback(
                     "degree",
                     deg_dep,
-                    {"degree.drag_value": d, "degree.value": d, "bands.value": ["confidence"]},
+                    {"degree-settled.data": d},
                     {"split-key.data": key},
-                    ["degree.value"],
+                    ["degree-settled.data"],
                 )
                 notice = " ".join(_texts(dg["response"].get("fit-notice", {}).get("children")))
                 if notice:

@@ -7,7 +7,6 @@ import json
 
 import numpy as np
 import pytest
-from dash import Patch
 
 import app
 from app import ids
@@ -81,14 +80,15 @@ def test_url_settings_apply_to_a_file_with_the_same_columns(sensor):
     assert odd["degree"] is None and odd["folds"] == 10  # not numbers: defaults, never a traceback
 
 
-def test_degree_change_sends_patches_and_the_alert(fit_service, sample_dir):
+def test_degree_change_sends_the_alert_and_no_figure(fit_service, sample_dir):
+    # the charts follow a degree change in the browser (panels/degree.py CURVE_JS, MARK_JS)
     info = fit_service.load_path(sample_dir / "cubic_small_noisy.csv")
     store = info.to_store()
     key = run_split(fit_service, store)["split_key"]
-    out = degree.on_degree(fit_service, 11, 11, ["confidence"], key, "value")
-    assert isinstance(out["fit_figure"], Patch) and isinstance(out["error_figure"], Patch)
+    out = degree.on_degree(fit_service, 11, key)
+    assert set(out) == {"alert", "alert_class", "readout", "notice"}
     assert out["alert_class"] == "alert alert-on" and "degree 11" in str([a.to_plotly_json() for a in out["alert"]])
-    out = degree.on_degree(fit_service, 3, 3, ["confidence"], key, "value")
+    out = degree.on_degree(fit_service, 3, key)
     assert out["alert"] == [] and out["alert_class"] == "alert alert-off" and out["readout"].startswith("degree 3")
 
 
@@ -153,7 +153,7 @@ def test_a_failing_callback_shows_a_message_and_leaves_the_rest(monkeypatch, cap
     dash_app = app.create_app()
     store = next(c for c in dash_app.layout()._traverse() if getattr(c, "id", None) == ids.DATASET).data
     gone = dict(store, id="no-such-id")
-    out = dash_call(dash_app, "fit-chart.figure", split_values(gone))
+    out = dash_call(dash_app, "fit-points.figure", split_values(gone))
     assert list(out["response"]) == [ids.FIT_NOTICE]  # every other output keeps its value
     assert "upload the file again" in json.dumps(out["response"][ids.FIT_NOTICE])
 
@@ -161,7 +161,7 @@ def test_a_failing_callback_shows_a_message_and_leaves_the_rest(monkeypatch, cap
         raise RuntimeError("unexpected")
 
     monkeypatch.setattr(FitService, "split_view", boom)
-    out = dash_call(dash_app, "fit-chart.figure", split_values(store))
+    out = dash_call(dash_app, "fit-points.figure", split_values(store))
     assert list(out["response"]) == [ids.FIT_NOTICE]
     assert INTERNAL_ERROR in json.dumps(out["response"][ids.FIT_NOTICE])
     assert "callback failed" in caplog.text and "RuntimeError" in caplog.text
@@ -177,7 +177,7 @@ def test_a_degree_that_is_not_a_number_gives_a_message_not_a_traceback(sensor):
     key = run_split(service, info.to_store())["split_key"]
     for bad in (float("inf"), float("nan"), "three"):
         with pytest.raises(DegreescopeError, match="whole number from 0 to 20"):
-            degree.on_degree(service, bad, bad, [], key, "value")
+            degree.on_degree(service, bad, key)
         with pytest.raises(DegreescopeError, match="whole number"):
             run_split(service, info.to_store(), degree=bad)
     assert run_split(service, info.to_store(), degree=99)["degree"] == 20  # out of range: the nearest degree

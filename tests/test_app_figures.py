@@ -18,16 +18,29 @@ def views(service, info, cols, split, degree):
 def test_fit_chart_has_distinct_training_and_test_points_curve_and_bands(sensor):
     service, info, cols = sensor
     view, dv = views(service, info, cols, SplitSettings(), 3)
+    pts = figures.points_figure(view).data
+    train, test = pts[ids.POINTS_TRACE_TRAIN], pts[ids.POINTS_TRACE_TEST]
+    assert train.name == "training" and test.name.startswith("test")
+    assert train.marker.symbol != test.marker.symbol and train.marker.color != test.marker.color
+    assert len(train.x) + len(test.x) == 120
     fig = figures.fit_figure(view, dv, ["confidence"])
     d = fig.data
-    assert d[ids.FIT_TRACE_TRAIN].name == "training" and d[ids.FIT_TRACE_TEST].name.startswith("test")
-    assert d[ids.FIT_TRACE_TRAIN].marker.symbol != d[ids.FIT_TRACE_TEST].marker.symbol
-    assert d[ids.FIT_TRACE_TRAIN].marker.color != d[ids.FIT_TRACE_TEST].marker.color
-    assert len(d[ids.FIT_TRACE_TRAIN].x) + len(d[ids.FIT_TRACE_TEST].x) == 120
+    assert len(d) == 5  # the curve layer holds no rows
     np.testing.assert_allclose(d[ids.FIT_TRACE_CURVE].y, dv.curve)
     assert d[ids.FIT_TRACE_CONF_HI].visible is True and d[ids.FIT_TRACE_PRED_HI].visible is False
     assert "(mV)" in fig.layout.xaxis.title.text and "(°C)" in fig.layout.yaxis.title.text
     assert fig.layout.annotations[0].text.startswith("Degree 3 · test RMSE")
+
+
+def test_the_two_layers_share_their_geometry_and_the_curve_layer_is_transparent(sensor):
+    service, info, cols = sensor
+    view, dv = views(service, info, cols, SplitSettings(), 3)
+    pts, fit = figures.points_figure(view).layout, figures.fit_figure(view, dv).layout
+    assert pts.margin == fit.margin and fit.margin.autoexpand is False
+    assert tuple(pts.xaxis.range) == tuple(fit.xaxis.range) and tuple(pts.yaxis.range) == tuple(fit.yaxis.range)
+    assert fit.paper_bgcolor == "rgba(0,0,0,0)" and fit.plot_bgcolor == "rgba(0,0,0,0)"
+    both = figures.fit_chart_layers(view, dv)
+    assert len(both.data) == 2 + 5 and both.layout.plot_bgcolor == "#ffffff"
 
 
 def test_extrapolation_zones_lie_outside_the_training_range(sensor):
@@ -42,48 +55,87 @@ def test_extrapolation_zones_lie_outside_the_training_range(sensor):
     assert sum(a.text == "extrapolation" for a in fig.layout.annotations) == 2
 
 
-def test_degree_patch_touches_curve_bands_and_caption_but_not_the_points(sensor):
+def test_degree_frames_hold_every_degree_as_the_figure_draws_it(sensor):
+    # what the browser copies into the curve layer on a key press is the server's own curve and bands
+    from app import layers
+
     service, info, cols = sensor
-    view, dv = views(service, info, cols, SplitSettings(), 7)
-    patch = figures.fit_degree_patch(view, dv, ["prediction"])
-    ops = patch.to_plotly_json()["operations"]
-    touched = {tuple(op["location"][:2]) for op in ops if op["location"][0] == "data"}
-    assert ("data", ids.FIT_TRACE_TRAIN) not in touched and ("data", ids.FIT_TRACE_TEST) not in touched
-    assert ("data", ids.FIT_TRACE_CURVE) in touched
-    curve_op = next(op for op in ops if op["location"] == ["data", ids.FIT_TRACE_CURVE, "y"])
-    np.testing.assert_allclose(curve_op["params"]["value"], dv.curve, rtol=1e-6)
-    vis = {op["location"][1]: op["params"]["value"] for op in ops if op["location"][-1] == "visible"}
-    assert vis[ids.FIT_TRACE_PRED_HI] is True and vis[ids.FIT_TRACE_CONF_HI] is False
-    # the hidden confidence band is not resent; the shown prediction band is
-    assert ("data", ids.FIT_TRACE_CONF_HI) not in {tuple(op["location"][:2]) for op in ops if op["location"][-1] == "y"}
-    assert ("data", ids.FIT_TRACE_PRED_HI) in {tuple(op["location"][:2]) for op in ops if op["location"][-1] == "y"}
-    assert len(plotly.io.json.to_json_plotly(patch.to_plotly_json())) < 30_000  # a few hundred points, not the data
+    split = SplitSettings()
+    view = service.split_view(info.id, cols, split)
+    frames = layers.degree_frames(service, info.id, cols, split, view)
+    assert frames["max"] == view.max_degree and len(frames["frames"]) == view.max_degree + 1
+
+    def unpack(spec):
+        import base64
+
+        assert spec["dtype"] == "f4"
+        return np.frombuffer(base64.b64decode(spec["bdata"]), dtype=np.float32)
+
+    for d in (0, 3, view.max_degree):
+        dv = service.degree_view(info.id, cols, split, d)
+        f = frames["frames"][str(d)]
+        np.testing.assert_allclose(unpack(f["curve"]), dv.curve, rtol=1e-6)
+        np.testing.assert_allclose(unpack(f["pred_hi"]), dv.pred_hi, rtol=1e-6)
+        assert f["title"] == figures.fit_figure(view, dv).layout.title.text
+        assert f["fit_caption"] == figures.fit_figure(view, dv).layout.annotations[0].text
+        assert f["caption"] == figures.error_figure(view, dv).layout.annotations[0].text
+    assert len(plotly.io.json.to_json_plotly(frames)) < 300_000  # curves on a grid, not the rows
 
 
 def test_error_chart_marks_current_and_recommended_degree(sensor):
     service, info, cols = sensor
     view, dv = views(service, info, cols, SplitSettings(mode="kfold"), 6)
     fig = figures.error_figure(view, dv)
-    assert list(fig.data[ids.ERR_TRACE_CURRENT].x) == [6]
+    ring = fig.layout.shapes[1]
+    assert (ring.type, ring.xanchor, ring.yanchor, ring.visible) == ("circle", 6, dv.test_rmse, True)
     assert list(fig.data[ids.ERR_TRACE_RECOMMENDED].x) == [view.steady.recommended_degree]
     assert fig.data[ids.ERR_TRACE_TEST].error_y.visible is True  # SE across folds
     np.testing.assert_allclose(fig.data[ids.ERR_TRACE_TEST].error_y.array, view.sweep.test_rmse_se)
     assert fig.layout.yaxis.type == "log"
-    p = figures.error_degree_patch(view, service.degree_view(info.id, cols, SplitSettings(mode="kfold"), 2))
-    ops = {tuple(o["location"]): o["params"]["value"] for o in p.to_plotly_json()["operations"]}
-    assert ops[("data", ids.ERR_TRACE_CURRENT, "x")] == [2]
     holdout = figures.error_figure(*views(service, info, cols, SplitSettings(), 6))
     assert holdout.data[ids.ERR_TRACE_TEST].error_y.visible is False  # one holdout has no SE
 
 
-def test_many_points_use_webgl(fit_service):
+def test_many_rows_are_drawn_as_a_density_that_counts_every_row(fit_service):
+    from app.service import DENSITY_FROM
+
     rng = np.random.default_rng(0)
-    x = rng.uniform(0, 1, 8000)
+    x = rng.uniform(0, 1, 30_000)  # more than the 20,000-point sample: the density counts every row
     text = "a,b\n" + "\n".join(f"{v:.6f},{2 * v + rng.normal(0, 0.1):.6f}" for v in x)
     info = fit_service.load_bytes(text.encode(), "many.csv")
     view, dv = views(fit_service, info, Columns("a", "b"), SplitSettings(), 1)
-    fig = figures.fit_figure(view, dv)
-    assert isinstance(fig.data[ids.FIT_TRACE_TRAIN], go.Scattergl)
+    assert view.rows_used > DENSITY_FROM and view.dense
+    pts = figures.points_figure(view).data
+    train, test = pts[ids.POINTS_TRACE_TRAIN], pts[ids.POINTS_TRACE_TEST]
+    assert isinstance(train, go.Heatmap) and isinstance(test, go.Heatmap)
+    assert train.showlegend and test.showlegend and train.colorscale != test.colorscale
+    assert np.sum(train.customdata) + np.sum(test.customdata) == 30_000
+    assert np.sum(test.customdata) == np.sum(view.sweep.test_mask)
+    note = figures.fit_figure(view, dv).layout.annotations[0].text
+    assert "30,000 rows as a density: 120 × 80 bins" in note
+    few = fit_service.load_bytes(("a,b\n" + "\n".join(f"{i},{i * 2}" for i in range(50))).encode(), "few.csv")
+    small, _ = views(fit_service, few, Columns("a", "b"), SplitSettings(), 1)
+    assert not small.dense and isinstance(figures.points_figure(small).data[0], go.Scatter)
+
+
+def test_the_error_axis_shows_numbers_when_the_rmse_spans_under_a_decade(sensor):
+    service, info, cols = sensor
+    view, dv = views(service, info, cols, SplitSettings(mode="kfold"), 3)
+    y = figures.error_figure(view, dv).layout.yaxis
+    lo, hi = np.nanmin(view.sweep.test_rmse), np.nanmax(view.sweep.test_rmse)
+    if y.tickmode == "array":
+        inside = [v for v in y.tickvals if lo <= v <= hi]
+        assert len(inside) >= 2 and all(t for t in y.ticktext)
+    narrow = figures.log_ticks(_rmse_only(0.051, 0.058))
+    assert narrow["tickmode"] == "array" and sum(0.051 <= v <= 0.058 for v in narrow["tickvals"]) >= 3
+    assert figures.log_ticks(_rmse_only(1e-3, 50)) == {"dtick": 1}
+
+
+def _rmse_only(lo, hi):
+    from types import SimpleNamespace
+
+    sweep = SimpleNamespace(train_rmse=np.array([lo]), test_rmse=np.array([hi]))
+    return SimpleNamespace(sweep=sweep, steady=SimpleNamespace(test_rmse=np.array([np.nan])))
 
 
 def test_names_from_the_file_cannot_act_as_markup(fit_service):
@@ -113,14 +165,9 @@ def test_a_missing_test_rmse_is_a_gap_on_the_error_chart_not_the_minimum(sensor)
     service, info, cols = sensor
     view, dv = views(service, info, cols, SplitSettings(mode="kfold"), 4)
     fig = figures.error_figure(view, dv)
-    assert list(fig.data[ids.ERR_TRACE_CURRENT].y) == [dv.test_rmse]
+    assert fig.layout.shapes[1].yanchor == dv.test_rmse
     rec = view.recommended_degree
     assert list(fig.data[ids.ERR_TRACE_RECOMMENDED].y) == [view.steady.test_rmse[view.steady.index(rec)]]
     missing = dataclasses.replace(dv, test_rmse=float("nan"))
-    ops = {
-        tuple(o["location"]): o["params"]["value"]
-        for o in figures.error_degree_patch(view, missing).to_plotly_json()["operations"]
-    }
-    assert ops[("data", ids.ERR_TRACE_CURRENT, "y")] == [None]
-    assert figures.error_figure(view, missing).data[ids.ERR_TRACE_CURRENT].y == (None,)
+    assert figures.error_figure(view, missing).layout.shapes[1].visible is False
     assert "test RMSE —" in figures.fit_figure(view, missing).layout.annotations[0].text

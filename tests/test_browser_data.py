@@ -19,7 +19,7 @@ from conftest import in_ci
 
 pytestmark = [pytest.mark.browser, pytest.mark.slow]
 
-FIT, ERR = "fit-chart", "error-chart"
+FIT, ERR, POINTS = "fit-chart", "error-chart", "fit-points"  # POINTS: the fit chart's points layer
 
 
 @pytest.fixture(scope="module")
@@ -109,12 +109,12 @@ def test_a_workbook_second_sheet_is_fitted(browser, server, tmp_path):
         pick(pg, "sheet", "run B")
         wait_text(pg, "intake-report", "Read sheet 'run B' of 'runs.xlsx'")
         wait_for_title(pg, FIT, "response B against dose (ug)")
-        points = trace(pg, FIT, 0)["y"] + trace(pg, FIT, 1)["y"]
+        points = trace(pg, POINTS, 0)["y"] + trace(pg, POINTS, 1)["y"]
         assert len(points) == 15 and min(points) < -40  # run B falls with dose
         # the model card follows: its coefficients are those of every row of run B, the model
         # handed over (numpy.polynomial.polyfit on the chart's training and test points as the reference)
         pg.wait_for_function("() => location.search.includes('sheet=run+B')")
-        train, test = trace(pg, FIT, 0), trace(pg, FIT, 1)
+        train, test = trace(pg, POINTS, 0), trace(pg, POINTS, 1)
         x = np.asarray(list(train["x"]) + list(test["x"]), dtype=float)
         y = np.asarray(list(train["y"]) + list(test["y"]), dtype=float)
         d = degree_now(pg)
@@ -145,7 +145,7 @@ def test_a_pasted_block_with_decimal_commas_is_fitted(browser, server):
         pg.click("#paste-button")
         wait_text(pg, "intake-report", "pasted table")
         wait_for_title(pg, FIT, "Strom (mA) against Spannung (V)")
-        xs = trace(pg, FIT, 0)["x"] + trace(pg, FIT, 1)["x"]
+        xs = trace(pg, POINTS, 0)["x"] + trace(pg, POINTS, 1)["x"]
         assert sorted(xs) == [v / 2 for v in range(1, 25)]  # "0,5" read as 0.5
         assert "decimal mark ','" in pg.inner_text("#intake-report")
         shot(pg, "data-02-pasted-1024")

@@ -14,7 +14,7 @@ from conftest import in_ci
 
 pytestmark = [pytest.mark.browser, pytest.mark.slow]
 
-FIT, RES = "fit-chart", "residual-chart"
+FIT, RES, POINTS = "fit-chart", "residual-chart", "fit-points"  # the rings sit on the fit chart's points layer
 JS_RINGS = """(sel) => { const gd = document.querySelector(sel + ' .js-plotly-plot');
     if (!gd || !gd.data) return null;
     return gd.data.filter(t => t.meta === 'evidence-ring').map(t => Array.from(t.customdata || []).map(c => c[0])); }"""
@@ -75,16 +75,16 @@ def test_evidence_stability_rings_and_a_row_left_out(browser, server):
         wait_text(page, "#stability-text", "of 200 redraws of the folds")
         assert page.locator("#stability-chart .bars path, #stability-chart .bars .point").count() >= 1
         # rings: the flagged rows, once on each chart, with their line numbers
-        page.wait_for_function(f"(s) => ({JS_RINGS})(s) && ({JS_RINGS})(s).length === 1", arg=f"#{FIT}")
+        page.wait_for_function(f"(s) => ({JS_RINGS})(s) && ({JS_RINGS})(s).length === 1", arg=f"#{POINTS}")
         page.wait_for_function(f"(s) => ({JS_RINGS})(s) && ({JS_RINGS})(s).length === 1", arg=f"#{RES}")
-        flagged = rings(page, FIT)[0]
+        flagged = rings(page, POINTS)[0]
         assert flagged and all(str(n) in page.inner_text("#influence-table") for n in flagged)
         # a degree change replaces the ring (removed by value), never adds a second one
         page.locator("#degree [role=slider]").focus()
         page.keyboard.press("ArrowRight")
         wait_for_title(page, RES, "Residuals at degree 4")
         page.wait_for_timeout(1500)
-        assert len(rings(page, FIT)) == 1 and len(rings(page, RES)) == 1
+        assert len(rings(page, POINTS)) == 1 and len(rings(page, RES)) == 1
         page.keyboard.press("ArrowLeft")
         wait_for_title(page, RES, "Residuals at degree 3")
         ARTIFACTS.mkdir(exist_ok=True)
@@ -98,7 +98,7 @@ def test_evidence_stability_rings_and_a_row_left_out(browser, server):
         wait_text(page, "#left-out-list", f"line {line}: thermometer not settled")
         wait_text(page, "#leave-out-notice", f"Line {line} is left out")
         wait_text(page, "#stability-text", "of 200 redraws of the folds")
-        page.wait_for_function(f"(s) => ({JS_RINGS})(s) && !({JS_RINGS})(s)[0].includes({line})", arg=f"#{FIT}")
+        page.wait_for_function(f"(s) => ({JS_RINGS})(s) && !({JS_RINGS})(s)[0].includes({line})", arg=f"#{POINTS}")
         page.screenshot(path=str(ARTIFACTS / "evidence-left-out-1440.png"), full_page=True)
         # a typed value that is not a data line is explained, not applied
         page.fill("#leave-out-line", "3")

@@ -228,12 +228,12 @@ def sample_key(c: Client) -> tuple[dict, dict]:
 def degree_body(c: Client, key, value, drag=None) -> bytes:
     from bench_load import Protocol
 
-    dep = c.proto.find("fit-chart.figure", "degree.drag_value")
+    dep = c.proto.find("overfit-alert.children", "degree-settled.data")
     return Protocol.body(
         dep,
-        {"degree.drag_value": drag, "degree.value": value, "bands.value": []},
+        {"degree-settled.data": value if drag is None else drag},
         {"split-key.data": key},
-        ["degree.value"],
+        ["degree-settled.data"],
     )
 
 
@@ -272,7 +272,7 @@ def test_out_of_range_values_reach_the_callbacks(server, caplog):
     status, data = post_raw(c, degree_body(c, key, 99))
     assert status == 200
     r = json.loads(data)["response"]
-    assert "fit-chart" in r  # clamped to the highest degree the data allow
+    assert "degree-readout" in r  # clamped to the highest degree the data allow
     status, r = c.split(ds, **{"x-column.value": ds["x"], "y-column.value": ds["y"], "folds.value": 1})
     assert status == 200 and "fit-chart" in r  # the charts keep the folds in force
     split_box = {"split-mode.value": "kfold", "group-column.value": None, "holdout.value": 25, "seed.value": 0}
@@ -293,10 +293,8 @@ def test_without_the_screen_a_wrong_record_leaves_a_traceback(caplog):
     app = create_app(None)
     client = app.server.test_client()
     deps = Protocol(client.get("/_dash-dependencies").get_json())
-    dep = deps.find("fit-chart.figure", "degree.drag_value")
-    body = Protocol.body(
-        dep, {"degree.drag_value": None, "degree.value": 3, "bands.value": []}, {"split-key.data": [1, 2]}, []
-    )
+    dep = deps.find("overfit-alert.children", "degree-settled.data")
+    body = Protocol.body(dep, {"degree-settled.data": 3}, {"split-key.data": [1, 2]}, [])
     caplog.set_level(logging.WARNING)
     client.post("/_dash-update-component", data=body, content_type="application/json")
     assert tracebacks(caplog) != []

@@ -95,7 +95,7 @@ class Client:
 
     def split(self, dataset: dict, **over):
         inputs = {**self.split_inputs(dataset), **over}
-        return self.callback("fit-chart.figure", "dataset.data", inputs, self.split_state())
+        return self.callback("fit-points.figure", "dataset.data", inputs, self.split_state())
 
     @staticmethod
     def split_state() -> dict:
@@ -200,7 +200,7 @@ def test_another_session_cannot_read_a_dataset_by_its_id(server, caplog):
     status, r = a.split(ds_a)
     assert status == 200
     assert not texts(r.get("fit-notice", {}).get("children")), r["fit-notice"]
-    assert shows_points(r["fit-chart"]["figure"], y7)
+    assert shows_points(r["fit-points"]["figure"], y7)
     key_a = r["split-key"]["data"]
     status, r = a.model(key_a, 2)
     assert status == 200 and "coefficients" in r
@@ -216,7 +216,7 @@ def test_another_session_cannot_read_a_dataset_by_its_id(server, caplog):
     status, r = b.split(ds_a)
     assert status == 200
     assert GONE in texts(r["fit-notice"]["children"])
-    assert "fit-chart" not in r and "split-key" not in r
+    assert "fit-points" not in r and "split-key" not in r
     status, r = b.model(key_a, 2)
     assert status == 200
     assert GONE in texts(r["model-note"]["children"])
@@ -256,7 +256,7 @@ def test_each_session_reads_its_own_upload_and_the_shared_sample(server):
     ds_b = b.upload(11)
     status, r = b.split(ds_b)
     assert status == 200
-    assert shows_points(r["fit-chart"]["figure"], bench.session_data(11)[1])
+    assert shows_points(r["fit-points"]["figure"], bench.session_data(11)[1])
     status, r = a.split(ds_b)
     assert GONE in texts(r["fit-notice"]["children"])
 

@@ -11,7 +11,10 @@
         saveChart: function (buttonId) {
             const spec = CHARTS[buttonId];
             if (!spec) { return null; }
-            const gd = document.querySelector("#" + spec[0] + " .js-plotly-plot");
+            // the fit chart is two stacked layers: the image holds both (degreescope-layers.js)
+            const gd = spec[0] === "fit-chart" && window.degreescopeLayers
+                ? window.degreescopeLayers.combined()
+                : document.querySelector("#" + spec[0] + " .js-plotly-plot");
             if (!gd || !window.Plotly) { return "chart not ready"; }
             // presentation size; the chart already carries its title, axis titles and caption
             window.Plotly.downloadImage(gd, {

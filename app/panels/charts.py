@@ -8,7 +8,7 @@ from __future__ import annotations
 
 from dash import Input, Output, State, dcc, html, no_update
 
-from .. import components, figures, ids, text
+from .. import components, figures, ids, layers, text
 from ..service import FitService, clamp_degree
 from ..views_evidence import exclusions_of
 from ._common import PageConfig, degree_marks, notice_on_error
@@ -17,8 +17,8 @@ from .settings import from_key, split_key
 SLOT = "main"
 
 
-def _chart(graph_id: str, png_id: str, svg_id: str, filename: str, height: int, key_id: str) -> html.Div:
-    tools = html.Div(
+def _tools(png_id: str, svg_id: str) -> html.Div:
+    return html.Div(
         [
             html.Span("Save for slides:", className="muted"),
             html.Button("PNG", id=png_id, n_clicks=0, className="btn btn-small", title="1600 × 900 PNG"),
@@ -26,6 +26,9 @@ def _chart(graph_id: str, png_id: str, svg_id: str, filename: str, height: int, 
         ],
         className="chart-tools",
     )
+
+
+def _chart(graph_id: str, png_id: str, svg_id: str, filename: str, height: int, key_id: str) -> html.Div:
     graph = dcc.Graph(
         id=graph_id,
         figure=figures.empty_figure("Loading…"),
@@ -34,7 +37,31 @@ def _chart(graph_id: str, png_id: str, svg_id: str, filename: str, height: int, 
         className="chart",
     )
     key = html.P(id=key_id, className="muted small chart-key")  # every mark in plain words
-    return html.Div([graph, key, tools], className="chart-card")
+    return html.Div([graph, key, _tools(png_id, svg_id)], className="chart-card")
+
+
+def _fit_chart(height: int) -> html.Div:
+    """The fit chart: the points layer under the curve layer, stacked in one box (app/layers.py)."""
+    style = {"height": f"{height}px"}
+    points = dcc.Graph(
+        id=ids.FIT_POINTS,
+        figure=figures.empty_figure(""),
+        config={"displayModeBar": False, "doubleClick": "reset"},
+        style=style,
+        className="chart layer-points",
+    )
+    curve = dcc.Graph(
+        id=ids.FIT_CHART,
+        figure=figures.empty_figure("Loading…"),
+        config=figures.image_options("degreescope-fit"),
+        style=style,
+        className="chart layer-curve",
+    )
+    stack = html.Div([points, curve], id=ids.FIT_STACK, className="fit-stack", style=style)
+    key = html.P(id=ids.FIT_KEY, className="muted small chart-key")
+    return html.Div(
+        [stack, key, _tools(ids.FIT_PNG, ids.FIT_SVG), dcc.Store(id=ids.DEGREE_FRAMES)], className="chart-card"
+    )
 
 
 def layout(cfg: PageConfig) -> list:
@@ -56,7 +83,7 @@ def layout(cfg: PageConfig) -> list:
     )
     charts = html.Div(
         [
-            _chart(ids.FIT_CHART, ids.FIT_PNG, ids.FIT_SVG, "degreescope-fit", 500, ids.FIT_KEY),
+            _fit_chart(500),
             _chart(ids.ERROR_CHART, ids.ERROR_PNG, ids.ERROR_SVG, "degreescope-error-by-degree", 500, ids.ERROR_KEY),
         ],
         className="charts",
@@ -65,6 +92,8 @@ def layout(cfg: PageConfig) -> list:
 
 
 OUTPUT = dict(
+    points_figure=Output(ids.FIT_POINTS, "figure"),
+    frames=Output(ids.DEGREE_FRAMES, "data"),
     fit_figure=Output(ids.FIT_CHART, "figure"),
     error_figure=Output(ids.ERROR_CHART, "figure"),
     fit_key=Output(ids.FIT_KEY, "children"),
@@ -124,9 +153,11 @@ def on_split(
     dv = service.degree_view(ds, cols, split, d)
     alert_children, alert_class = components.alert(dv.warnings)
     return dict(
+        points_figure=figures.points_figure(view),
+        frames=layers.degree_frames(service, ds, cols, split, view),
         fit_figure=figures.fit_figure(view, dv, bands),
         error_figure=figures.error_figure(view, dv),
-        fit_key=text.fit_chart_key(split.mode),
+        fit_key=text.fit_chart_key(split.mode, view.dense),
         error_key=text.error_chart_key(view),
         degree_max=view.max_degree,
         degree_marks=degree_marks(view.max_degree),

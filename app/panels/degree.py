@@ -1,33 +1,64 @@
-"""The degree slider and the bands: a degree change is the cheap path, a partial update of both charts.
+"""The degree slider and the bands: a key press redraws the curve layer in the browser, with no round trip.
 
-The precise fit, the predictions and the URL follow the degree once it has rested for
-SETTLE_MS (a clientside debounce into ``ids.DEGREE_SETTLED``), so that a run of key presses
-or a drag keeps the server and the browser free for the chart updates.
+Every degree's curve and bands arrive once per split (``ids.DEGREE_FRAMES``, app/layers.py).
+The page's script (``assets/degreescope-layers.js``) watches the slider's thumb and, on a key
+press or a drag, copies one degree's arrays straight into the curve layer of the fit chart (one
+``Plotly.update`` of its few traces) and moves the error chart's mark two animation frames
+later, for the latest degree only. No Dash callback and no request run on that path: each
+would cost the page several store updates.
+
+Once the degree has rested for SETTLE_MS, the script writes it to ``ids.DEGREE_SETTLED``.
+Then both figures' properties are patched to what is drawn (SYNC_JS, which also hands the
+frames and bands to the script), the server checks the degree and sends the alert and the
+readout, and the model card, the predictions, the evidence and the URL follow, so that a run
+of key presses or a drag keeps the server and the browser free for the curve.
 """
 
 from __future__ import annotations
 
-from dash import Input, Output, State, ctx, dcc, html, no_update
+from dash import Input, Output, State, dcc, html, no_update
 
-from .. import components, figures, ids, text
+from .. import components, ids, text
 from ..service import FitService
 from ._common import PageConfig, degree_marks, notice_on_error
 from .settings import from_key
 
 SLOT = "main"
 DEGREE_MAX_START = 20
-SETTLE_MS = 200
-SETTLE_JS = (
-    """
-async function(value) {
-    const me = (window.__degreeSettle = (window.__degreeSettle || 0) + 1);
-    await new Promise(function (r) { setTimeout(r, %d); });
-    if (me !== window.__degreeSettle) { return window.dash_clientside.no_update; }
-    return value;
+SETTLE_MS = 350  # longer than a key press takes to paint, so a run of presses never waits for the settled work
+
+# the degree at rest, a band switch or new frames: both figures' properties patched to what is drawn
+SYNC_JS = """
+function(settled, bands, frames, value) {
+    const dc = window.dash_clientside;
+    if (window.degreescopeLayers) { window.degreescopeLayers.use(frames, bands); }
+    const raw = (value !== null && value !== undefined) ? value : settled;
+    if (raw === null || raw === undefined || !frames || !frames.frames) { return [dc.no_update, dc.no_update]; }
+    const d = Math.max(0, Math.min(frames.max, Math.round(Number(raw))));
+    const f = frames.frames[String(d)], ix = frames.traces;
+    if (!f) { return [dc.no_update, dc.no_update]; }
+    const shown = bands || [];
+    const pred = shown.indexOf("prediction") >= 0, conf = shown.indexOf("confidence") >= 0;
+    const p = new dc.Patch();
+    // a hidden band keeps its old values (plotly skips hidden traces); it is sent when shown
+    if (pred) { p.assign(["data", ix.pred_lo, "y"], f.pred_lo); p.assign(["data", ix.pred_hi, "y"], f.pred_hi); }
+    if (conf) { p.assign(["data", ix.conf_lo, "y"], f.conf_lo); p.assign(["data", ix.conf_hi, "y"], f.conf_hi); }
+    [ix.pred_lo, ix.pred_hi].forEach(function (i) { p.assign(["data", i, "visible"], pred); });
+    [ix.conf_lo, ix.conf_hi].forEach(function (i) { p.assign(["data", i, "visible"], conf); });
+    p.assign(["data", ix.curve, "y"], f.curve);
+    p.assign(["data", ix.curve, "name"], f.name);
+    p.assign(["layout", "title", "text"], f.title);
+    p.assign(["layout", "annotations", 0, "text"], f.fit_caption);
+    const e = new dc.Patch();  // the error chart's column and ring are shapes: a layout change only
+    e.assign(["layout", "shapes", 0, "x0"], d - 0.4);
+    e.assign(["layout", "shapes", 0, "x1"], d + 0.4);
+    e.assign(["layout", "shapes", 1, "xanchor"], d);
+    e.assign(["layout", "shapes", 1, "yanchor"], f.test_rmse === null ? 1 : f.test_rmse);
+    e.assign(["layout", "shapes", 1, "visible"], f.test_rmse !== null);
+    e.assign(["layout", "annotations", 0, "text"], f.caption);
+    return [p.build(), e.build()];
 }
 """
-    % SETTLE_MS
-)
 
 
 def layout(cfg: PageConfig) -> html.Section:
@@ -56,38 +87,29 @@ def layout(cfg: PageConfig) -> html.Section:
         inline=True,
         className="bands",
     )
-    return html.Section([head, slider, bands], className="panel degree-panel")
+    # the page's script (assets/degreescope-layers.js) draws a key press and writes the settled degree
+    return html.Section([head, slider, bands], className="panel degree-panel", **{"data-settle-ms": SETTLE_MS})
 
 
 OUTPUT = dict(
-    fit_figure=Output(ids.FIT_CHART, "figure", allow_duplicate=True),
-    error_figure=Output(ids.ERROR_CHART, "figure", allow_duplicate=True),
     alert=Output(ids.OVERFIT_ALERT, "children", allow_duplicate=True),
     alert_class=Output(ids.OVERFIT_ALERT, "className", allow_duplicate=True),
     readout=Output(ids.DEGREE_READOUT, "children", allow_duplicate=True),
     notice=Output(ids.FIT_NOTICE, "children", allow_duplicate=True),
 )
-INPUTS = dict(
-    drag_value=Input(ids.DEGREE, "drag_value"),
-    value=Input(ids.DEGREE, "value"),
-    bands=Input(ids.BANDS, "value"),
-)
+INPUTS = dict(value=Input(ids.DEGREE_SETTLED, "data"))
 STATE = dict(key=State(ids.SPLIT_KEY, "data"))
 
 
-def on_degree(service: FitService, drag_value, value, bands, key, triggered: str | None = None) -> dict:
-    """Partial updates of both charts, the alert and the readout for a new degree or band choice."""
-    # a drag sends drag_value; key presses, releases and band switches go by value
-    d = drag_value if triggered == "drag_value" and drag_value is not None else value
+def on_degree(service: FitService, value, key) -> dict:
+    """The alert and the readout for the degree at rest, checked on the server (CURVE_JS shows them at once)."""
+    d = value
     if d is None or not key:
         return {name: no_update for name in OUTPUT}
     ds, cols, split = from_key(key)
-    view = service.split_view(ds, cols, split)
     dv = service.degree_view(ds, cols, split, d)
     alert_children, alert_class = components.alert(dv.warnings)
     return dict(
-        fit_figure=figures.fit_degree_patch(view, dv, bands),
-        error_figure=figures.error_degree_patch(view, dv),
         alert=alert_children,
         alert_class=alert_class,
         readout=text.degree_readout(dv),
@@ -95,20 +117,22 @@ def on_degree(service: FitService, drag_value, value, bands, key, triggered: str
     )
 
 
-def _triggered_prop() -> str:
-    """ "drag_value" when the slider's drag fired this call, else "value"."""
-    if ctx.triggered_id == ids.DEGREE and ctx.triggered:
-        return ctx.triggered[0]["prop_id"].split(".")[-1]
-    return "value"
-
-
 def register(app, service: FitService) -> None:
-    """Wire the degree patch and the clientside settle of the degree."""
+    """Wire the alert and readout at rest, the clientside draw of a key press, the settle and the figure sync."""
     app.callback(
         output=OUTPUT,
         inputs=INPUTS,
         state=STATE,
         prevent_initial_call=True,
         on_error=notice_on_error(OUTPUT, "notice"),
-    )(lambda **kw: on_degree(service, triggered=_triggered_prop(), **kw))
-    app.clientside_callback(SETTLE_JS, Output(ids.DEGREE_SETTLED, "data"), Input(ids.DEGREE, "value"))
+    )(lambda **kw: on_degree(service, **kw))
+    app.clientside_callback(
+        SYNC_JS,
+        Output(ids.FIT_CHART, "figure", allow_duplicate=True),
+        Output(ids.ERROR_CHART, "figure", allow_duplicate=True),
+        Input(ids.DEGREE_SETTLED, "data"),
+        Input(ids.BANDS, "value"),
+        Input(ids.DEGREE_FRAMES, "data"),
+        State(ids.DEGREE, "value"),
+        prevent_initial_call=True,
+    )

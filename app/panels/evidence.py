@@ -149,11 +149,15 @@ def _influence_children(service, ds, cols, degree, excluded) -> list:
         inf = ve.influence(service, ds, cols, degree, excluded)
     except FitError as exc:
         return [html.P(str(exc), className="small")]
-    rows = ve.flagged_rows(inf)
+    flagged = ve.flagged_rows(inf)
+    rows = most_influential(flagged)  # thousands of table rows would stall the page on large data
     head = html.P(text.influence_heading(inf.degree, inf.n), className="small")
+    if len(rows) < len(flagged):
+        head = [head, html.P(text.influence_shown(len(rows), len(flagged)), className="small")]
     body = components.influence_table(rows, inf.thresholds) if rows else html.P(text.no_flags(inf.degree))
     caution = html.P(inf.caution, className="muted small")
-    return [head, html.Div(body, className="table-scroll"), components.threshold_list(inf.thresholds), caution]
+    heads = head if isinstance(head, list) else [head]
+    return [*heads, html.Div(body, className="table-scroll"), components.threshold_list(inf.thresholds), caution]
 
 
 OUTPUT = dict(
@@ -249,7 +253,7 @@ def on_stability(service: FitService, key, store, go=None) -> dict:
 # rings on the fit and residual charts
 
 
-RING_LIMIT = 50  # rings drawn at most: on large data many rows pass a threshold, and the curve layer stays light
+RING_LIMIT = 50  # rings drawn and table rows listed at most: on large data many rows pass a threshold
 
 
 def most_influential(rows, limit: int = RING_LIMIT):
@@ -308,7 +312,8 @@ def _flagged(service, key, degree, store):
         return ds, cols, split, []
 
 
-RING_FIT_OUTPUT = dict(figure=Output(ids.FIT_CHART, "figure", allow_duplicate=True), ring=Output(ids.RING_FIT, "data"))
+# the rings go on the fit chart's points layer, where the pointer reaches them (app/layers.py)
+RING_FIT_OUTPUT = dict(figure=Output(ids.FIT_POINTS, "figure", allow_duplicate=True), ring=Output(ids.RING_FIT, "data"))
 RING_FIT_INPUTS = dict(
     key=Input(ids.SPLIT_KEY, "data"), degree=Input(ids.DEGREE_SETTLED, "data"), store=Input(ids.EXCLUSIONS, "data")
 )
@@ -400,7 +405,7 @@ def _put_back_line() -> int | None:
 
 
 CLICK_OUTPUT = dict(line=Output(ids.LEAVE_OUT_LINE, "value", allow_duplicate=True))
-CLICK_INPUTS = dict(click=Input(ids.FIT_CHART, "clickData"))
+CLICK_INPUTS = dict(click=Input(ids.FIT_POINTS, "clickData"))
 CLICK_STATE = dict(key=State(ids.SPLIT_KEY, "data"))
 
 
