@@ -65,7 +65,7 @@ def open_page(browser, server, width: int):
     page.set_default_timeout(60_000)
     page.goto(server.url)
     wait_for_title(page, FIT, "Degree")
-    page.wait_for_function("() => document.querySelector('#model-note') && document.querySelector('#model-note').innerText")
+    page.wait_for_function("() => { const n = document.querySelector('#model-note'); return !!n && !!n.innerText; }")
     return ctx, page
 
 

@@ -199,13 +199,13 @@ def test_rows_undefined_under_1_over_x_are_named_in_the_page_notice(tmp_path):
     path.write_bytes(csv_bytes(x, y))
     dash_app = app.create_app(str(path))
     store = next(c for c in dash_app.layout()._traverse() if getattr(c, "id", None) == ids.DATASET).data
-    out = dash_call(dash_app, "fit-chart.figure", split_values(store, **{"weighting.value": "1/x"}))
+    out = dash_call(dash_app, "fit-points.figure", split_values(store, **{"weighting.value": "1/x"}))
     assert list(out["response"]) == [ids.FIT_NOTICE]
     notice = json.dumps(out["response"][ids.FIT_NOTICE], ensure_ascii=False)
     assert "Weighting 1/x is undefined where x = 0: 1 line (line 2)" in notice
-    fine = dash_call(dash_app, "fit-chart.figure", split_values(store, **{"weighting.value": "1/y"}))
+    fine = dash_call(dash_app, "fit-points.figure", split_values(store, **{"weighting.value": "1/y"}))
     assert ids.FIT_CHART in fine["response"]  # 1/y is defined on every row (all responses above 0)
-    bad = dash_call(dash_app, "fit-chart.figure", split_values(store, **{"weighting.value": "1/z"}))
+    bad = dash_call(dash_app, "fit-points.figure", split_values(store, **{"weighting.value": "1/z"}))
     assert list(bad["response"]) == [ids.FIT_NOTICE] and "Unknown weighting" in json.dumps(bad["response"])
 
 
