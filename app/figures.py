@@ -351,8 +351,10 @@ def error_figure(view: SplitView, dv: DegreeView) -> go.Figure:
     """Training and test RMSE per degree, the verdict sweep, the current and recommended degree."""
     traces = _error_traces(view) + _degree_markers(view, dv)
     layout = _base_layout(error_title(view), "polynomial degree", _rmse_title(view), text.degree_caption(view, dv))
-    layout["yaxis"].update(type="log", minor=dict(ticks="inside", ticklen=4, showgrid=True, gridcolor="#f1eee7"))
-    layout["yaxis"].update(log_ticks(view))
+    ticks = log_ticks(view)
+    layout["yaxis"].update(type="log", **ticks)
+    if "dtick" in ticks:  # minor ticks follow a decade step; beside listed ticks plotly could draw countless
+        layout["yaxis"]["minor"] = dict(ticks="inside", ticklen=4, showgrid=True, gridcolor="#f1eee7")
     deg = view.sweep.degrees.astype(int)
     layout["xaxis"].update(dtick=1 if deg.size <= 13 else 2, range=[-0.5, int(deg.max()) + 0.5])
     layout["shapes"] = [_degree_band(dv.degree), degree_ring(dv.degree, _current_y(dv))]
