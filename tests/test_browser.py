@@ -78,7 +78,8 @@ def wait_degree(page, d: int) -> None:
     wait_for_title(page, FIT, f"Degree {d} fit")
     page.wait_for_function(
         """(d) => { const gd = document.querySelector('#error-chart .js-plotly-plot');
-            return gd && gd._fullData[3] && gd._fullData[3].x[0] === d; }""",
+            const ring = gd && gd._fullLayout && gd._fullLayout.shapes && gd._fullLayout.shapes[1];
+            return !!ring && ring.xanchor === d; }""",  # the current degree's ring is a layout shape
         arg=d,
     )
 
