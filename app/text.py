@@ -109,9 +109,9 @@ def measure_note(view: SplitView) -> str:
     used = weighting_in_force(view.columns)
     weighted = f" Every fit and error on this page is weighted ({used})." if used else ""
     return (
-        f"The recommendation and the overfitting warning rest on {view.steady_label} of all "
-        f"{fmt_count(view.rows_used)} rows ({view.steady.recommendation_rule} rule), whatever split the charts "
-        f"show. The charts show the {view.split_label}.{weighted}"
+        f"The recommendation and the overfitting warning rest on {view.steady_label.rstrip('.')} "
+        f"({view.steady.recommendation_rule} rule), on all {fmt_count(view.rows_used)} rows, whatever split the "
+        f"charts show. The charts show the {view.split_label}.{weighted}"
     )
 
 
@@ -424,7 +424,7 @@ def error_chart_key(view: SplitView) -> str:
     """One plain sentence for the error chart's marks, including the shaded column and the dashed line."""
     return (
         "Blue: how far the fit misses its own training rows. Amber: how far it misses the held-out rows "
-        f"({view.split_label}). Dashed grey ({LEGEND_VERDICT!r}): the test error of {view.steady_label}, "
+        f"({view.split_label}). Dashed grey ({LEGEND_VERDICT!r}): the test error of {view.steady_label.rstrip('.')}, "
         "which the recommendation rests on. The red ring and the pale red column mark the degree on screen; "
         "the green star marks the recommended degree."
     )

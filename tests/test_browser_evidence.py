@@ -134,17 +134,17 @@ def test_narrow_page_keeps_the_evidence_panel_inside(browser, server):
 def test_a_row_left_out_refits_the_verdict_charts_and_model_card(browser, server):
     ctx, page = open_page(browser, server, 1440)
     try:
-        wait_text(page, "#measure-note", "of all 120 rows")
+        wait_text(page, "#measure-note", "on all 120 rows")
         wait_text(page, "#model-handover", "(120 rows)")
         page.fill("#leave-out-line", "40")
         page.fill("#leave-out-reason", "door opened during the reading")
         page.click("#leave-out-button")
         wait_text(page, "#evidence-rows", "from 119 rows")
         page.wait_for_function(
-            "() => document.getElementById('measure-note').innerText.includes('of all 119 rows')", timeout=10_000
+            "() => document.getElementById('measure-note').innerText.includes('on all 119 rows')", timeout=10_000
         )
         wait_text(page, "#model-handover", "(119 rows)")
         page.click("#left-out-list button")
-        wait_text(page, "#measure-note", "of all 120 rows")
+        wait_text(page, "#measure-note", "on all 120 rows")
     finally:
         ctx.close()
