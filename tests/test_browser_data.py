@@ -201,11 +201,6 @@ def same_view(pg) -> None:
     assert "batch" in pg.inner_text("#group-column")
 
 
-@pytest.mark.xfail(
-    strict=False,
-    reason="known intermittent failure in full runs: the restored view's chart title sometimes does not arrive "
-    "(a race between the pending view and the start-up file's first draw); passes alone; under investigation",
-)
 def test_a_shared_url_restores_the_view_for_a_colleague_and_on_reload(browser, server, tmp_path):
     csv = tmp_path / "oven.csv"
     oven_csv(csv)

@@ -152,23 +152,34 @@ def test_the_url_gets_bands_and_level_once_the_view_is_read():
 
 
 def test_new_columns_start_at_their_recommendation_a_hand_degree_stays_with_its_columns(fit_service):
+    # decided in the split callback itself, with the figures: an older answer cannot move the slider later
     up = data.on_upload(fit_service, data_url(quad_csv()), "oven.csv")["dataset"]
-    straight = run_split(fit_service, up, x="set point (C)", y="straight")
-    key1 = straight["split_key"]
-    first = data.on_selection(fit_service, key1, straight["degree"], None)
-    assert first["seen"] == [up["id"], "set point (C)", "straight", None, None, "none"]
+    straight = run_split(fit_service, up, x="set point (C)", y="straight", seen=None)
+    first = straight["seen"]
+    assert first == [up["id"], "set point (C)", "straight", None, None, "none"]
     rec1 = int(straight["recommended_degree"].split()[-1])
+    assert straight["degree"] == rec1
     # the user drags to 6 with the same columns: kept
-    assert data.on_selection(fit_service, key1, 6, first["seen"])["degree"] is no_update
-    # y changes while the slider still says 6: the degree goes to the new recommendation
-    bending = run_split(fit_service, up, x="set point (C)", y="bending", degree=6)
+    kept = run_split(fit_service, up, x="set point (C)", y="straight", degree=6, seen=first)
+    assert (
+        kept["degree"] is no_update
+        and kept["seen"] is no_update
+        and "Degree 6 fit" in kept["fit_figure"].layout.title.text
+    )
+    # y changes while the slider still says 6: the degree goes to the new recommendation, drawn at once
+    bending = run_split(fit_service, up, x="set point (C)", y="bending", degree=6, seen=first)
     rec2 = int(bending["recommended_degree"].split()[-1])
-    assert rec1 != rec2
-    moved = data.on_selection(fit_service, bending["split_key"], 6, first["seen"])
-    assert moved["degree"] == rec2 and moved["seen"][2] == "bending"
+    assert rec1 != rec2 and bending["degree"] == rec2 and bending["seen"][2] == "bending"
+    assert f"Degree {rec2} fit" in bending["fit_figure"].layout.title.text
     # weights are part of the columns too
-    weighted = run_split(fit_service, up, x="set point (C)", y="bending", weights="straight", degree=5)
-    assert data.on_selection(fit_service, weighted["split_key"], 5, moved["seen"])["degree"] != no_update
+    weighted = run_split(
+        fit_service, up, x="set point (C)", y="bending", weights="straight", degree=5, seen=bending["seen"]
+    )
+    assert weighted["seen"][3] == "straight" and weighted["degree"] in (no_update, weighted["degree"])
+    assert (
+        f"Degree {5 if weighted['degree'] is no_update else weighted['degree']} fit"
+        in weighted["fit_figure"].layout.title.text
+    )
 
 
 def test_default_columns_pass_over_a_counter_and_say_why(fit_service):
@@ -202,7 +213,7 @@ def test_every_reason_lists_its_lines_including_na_markers(fit_service):
     report = as_text(out["intake"])
     assert "lines 9, 14, 27, 28, 30" in report and "5 rows are left out" in report
     key = run_split(fit_service, up)["split_key"]
-    again = as_text(data.on_selection(fit_service, key, 1, None)["intake"])
+    again = as_text(data.on_selection(fit_service, key)["intake"])
     assert "lines 9, 14, 27, 28, 30" in again
 
 
@@ -224,7 +235,7 @@ def test_the_degree_cap_note_appears_once_labelled_with_its_sweep(fit_service):
     view = fit_service.split_view(*from_key(key))
     capped = [w for w in (*view.sweep.warnings, *view.steady.warnings) if "were left out" in w]
     assert len(capped) == 2 and capped[0] != capped[1]  # the two sweeps' contradicting notes exist
-    notes = [p.children for p in data.on_selection(fit_service, key, 1, None)["sweep_notes"]]
+    notes = [p.children for p in data.on_selection(fit_service, key)["sweep_notes"]]
     caps = [n for n in notes if "were left out" in n]
     assert len(caps) == 1 and caps[0].startswith(f"Charts' split, {view.split_label}: Degrees")
 

@@ -236,13 +236,12 @@ def test_the_address_round_trips_the_weighting(fit_service):
 def test_a_new_weighting_moves_the_degree_to_its_recommendation(fit_service):
     x, y = assay()
     store = load(fit_service, x, y)
-    first = data.on_selection(fit_service, split_out(fit_service, store)["split_key"], 5, None)
-    kept = data.on_selection(fit_service, split_out(fit_service, store)["split_key"], 5, first["seen"])
+    first = split_out(fit_service, store, degree=5, seen=None)["seen"]
+    kept = split_out(fit_service, store, degree=5, seen=first)
     assert kept["degree"] is data.no_update  # same columns and weighting: a degree set by hand stays
-    moved = data.on_selection(
-        fit_service, split_out(fit_service, store, weighting="1/x")["split_key"], 5, first["seen"]
-    )
-    assert moved["seen"][-1] == "1/x" and moved["seen"] != first["seen"]
+    moved = split_out(fit_service, store, weighting="1/x", degree=5, seen=first)
+    assert moved["seen"][-1] == "1/x" and moved["seen"] != first
+    assert moved["degree"] == int(moved["recommended_degree"].split()[-1])
 
 
 def test_the_settings_record_and_the_picker_at_the_edge():

@@ -109,6 +109,7 @@ OUTPUT = dict(
     alert_class=Output(ids.OVERFIT_ALERT, "className"),
     readout=Output(ids.DEGREE_READOUT, "children"),
     split_key=Output(ids.SPLIT_KEY, "data"),
+    seen=Output(ids.VIEW_COLUMNS, "data", allow_duplicate=True),
     notice=Output(ids.FIT_NOTICE, "children"),
 )
 INPUTS = dict(
@@ -124,7 +125,8 @@ INPUTS = dict(
     exclusions=Input(ids.EXCLUSIONS, "data"),
     weighting=Input(ids.WEIGHTING, "value"),
 )
-STATE = dict(degree=State(ids.DEGREE, "value"), bands=State(ids.BANDS, "value"))
+STATE = dict(degree=State(ids.DEGREE, "value"), bands=State(ids.BANDS, "value"), seen=State(ids.VIEW_COLUMNS, "data"))
+UNSET = object()  # ``seen`` not given (a direct call): the degree on the slider is kept
 
 
 def on_split(
@@ -142,6 +144,7 @@ def on_split(
     bands=None,
     exclusions=None,
     weighting=None,
+    seen=UNSET,
 ) -> dict:
     """Both charts, the verdict, the slider's range and the settings record for a new data/column/split choice."""
     left_out = exclusions_of(exclusions, (dataset or {}).get("id"))
@@ -149,7 +152,12 @@ def on_split(
     key = split_key(dataset, x, y, weights, group, mode, holdout, folds, seed, lines, weighting)
     ds, cols, split = from_key(key)
     view = service.split_view(ds, cols, split)
-    d = view.recommended_degree if degree is None else clamp_degree(degree, view.max_degree)
+    # the degree follows the columns: a new dataset, x, y, weights, group or weighting lands on the
+    # recommended degree; a degree set by hand or by a shared view (``seen``) is kept. Decided here, with
+    # the figures, so that an older answer can never move the slider after a newer one.
+    signature = [ds, cols.x, cols.y, cols.weights, cols.group, cols.weighting]
+    follow = degree is None or (seen is not UNSET and seen != signature)
+    d = view.recommended_degree if follow else clamp_degree(degree, view.max_degree)
     dv = service.degree_view(ds, cols, split, d)
     alert_children, alert_class = components.alert(dv.warnings)
     return dict(
@@ -170,6 +178,7 @@ def on_split(
         alert_class=alert_class,
         readout=text.degree_readout(dv),
         split_key=key,
+        seen=signature if seen is UNSET or seen != signature else no_update,
         notice="",
     )
 

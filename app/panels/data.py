@@ -13,7 +13,7 @@ address keeps it as ``wt``.
 
 A degree chosen by hand is kept while the columns (dataset, x, y, weights, group) and the
 weighting stay the same; when they change the degree moves to the new recommendation
-(``on_selection``).
+(``charts.on_split``, with the figures, against the signature kept in ``ids.VIEW_COLUMNS``).
 """
 
 from __future__ import annotations
@@ -400,32 +400,24 @@ def on_url(search, bands, level, pending) -> dict:
 # the columns in use: the degree follows them, the intake report lists their rows left out
 
 SELECTION_OUTPUT = dict(
-    degree=Output(ids.DEGREE, "value", allow_duplicate=True),
-    seen=Output(ids.VIEW_COLUMNS, "data", allow_duplicate=True),
     intake=Output(ids.INTAKE_REPORT, "children", allow_duplicate=True),
     sweep_notes=Output(ids.SWEEP_NOTES, "children", allow_duplicate=True),
     column_note=Output(ids.COLUMN_NOTE, "children", allow_duplicate=True),
 )
 SELECTION_INPUTS = dict(key=Input(ids.SPLIT_KEY, "data"))
-SELECTION_STATE = dict(degree=State(ids.DEGREE, "value"), seen=State(ids.VIEW_COLUMNS, "data"))
 
 
-def on_selection(service: FitService, key, degree, seen) -> dict:
-    """For the charts' settings: the recommended degree when the columns changed, the report, the notes.
+def on_selection(service: FitService, key) -> dict:
+    """For the charts' settings: the intake report of the columns in use, the sweep notes, the column note.
 
-    A degree set by hand is kept while dataset, x, y, weights, group and weighting stay the same (``seen``).
+    (The degree follows the columns in ``charts.on_split``, with the figures.)
     """
     if not key:
         return {name: no_update for name in SELECTION_OUTPUT}
     ds, cols, split = from_key(key)
     view = service.split_view(ds, cols, split)
     info = service.info(ds)
-    signature = [ds, cols.x, cols.y, cols.weights, cols.group, cols.weighting]
-    same = seen == signature
-    rec = view.recommended_degree
     return dict(
-        degree=no_update if same or degree == rec else rec,
-        seen=no_update if same else signature,
         intake=components.intake_report(info, service.selection(ds, cols)),
         sweep_notes=[html.P(n) for n in text.labelled_sweep_notes(view)],
         column_note=_column_note(info, {"x": cols.x, "y": cols.y}),
@@ -477,7 +469,6 @@ def _register_view(app, service: FitService) -> None:
     app.callback(
         output=SELECTION_OUTPUT,
         inputs=SELECTION_INPUTS,
-        state=SELECTION_STATE,
         prevent_initial_call=True,
         on_error=notice_on_error(SELECTION_OUTPUT, ids.VIEW_NOTICE),
     )(lambda **kw: on_selection(service, **kw))
