@@ -83,7 +83,9 @@ def test_evidence_stability_rings_and_a_row_left_out(browser, server):
         page.locator("#degree [role=slider]").focus()
         page.keyboard.press("ArrowRight")
         wait_for_title(page, RES, "Residuals at degree 4")
-        page.wait_for_timeout(1500)
+        for chart in (POINTS, RES):  # each ring follows its chart's own redraw; wait for it, never a second one
+            page.wait_for_function(f"(s) => ({JS_RINGS})(s) && ({JS_RINGS})(s).length === 1", arg=f"#{chart}")
+        page.wait_for_timeout(1000)
         assert len(rings(page, POINTS)) == 1 and len(rings(page, RES)) == 1
         page.keyboard.press("ArrowLeft")
         wait_for_title(page, RES, "Residuals at degree 3")
