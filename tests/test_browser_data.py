@@ -219,6 +219,7 @@ def test_a_shared_url_restores_the_view_for_a_colleague_and_on_reload(browser, s
         wait_text(b, "view-notice", "load 'oven.csv' to restore this view")
         wait_for_title(b, FIT, "temperature")  # the start-up file meanwhile
         b.wait_for_timeout(1500)  # the model card writes its URL; the pending view's URL is put back
+        b.wait_for_function("() => location.search.includes('mode=ordered')")
         assert query(b)["mode"] == "ordered" and query(b)["file"] == "oven.csv"
         shot(b, "data-03-colleague-asked-for-the-file-1024")
         b.set_input_files("#upload input[type=file]", str(csv))
