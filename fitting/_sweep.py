@@ -773,7 +773,7 @@ def _full_data_diagnostics(full, disp, degs, ncols, geometry, failed, n_train_mi
             if inflation > BAND_INFLATION_LIMIT:
                 deg_notes[d].append(
                     f"degree {d}: the uncertainty of the curve explodes between data points (its standard error "
-                    f"reaches {_ratio(inflation)} the residual scatter)."
+                    f"reaches {_ratio(inflation, 1.0)} the residual scatter)."
                 )
         if n_train_min is not None and d >= n_train_min - 1:
             deg_notes[d].append(
@@ -790,7 +790,7 @@ def _oscillation_note(notes: list[str], d: int, curve: np.ndarray, grid: np.ndar
     if over > OSCILLATION_FACTOR * yspan:
         where = float(grid[int(np.argmax(np.maximum(curve - yhi, ylo - curve)))])
         notes.append(
-            f"degree {d}: between data points the curve swings {_ratio(over / yspan)} the data's y range beyond it "
+            f"degree {d}: between data points the curve swings {_ratio(over, yspan)} the data's y range beyond it "
             f"(near x = {where:.4g}), a sign of oscillation."
         )
 
@@ -856,7 +856,7 @@ def _overfitting(degs: list[int], sc: dict[str, Any], rec: dict[str, Any], deg_n
         if not finite[i]:
             continue
         overfit[i] = True
-        ratio = _ratio(test_rmse[i] / test_rmse[imin])
+        ratio = _ratio(test_rmse[i], test_rmse[imin])
         if rises[i]:
             msg = (
                 f"degree {degs[i]}: test error is {ratio} its minimum (degree {dmin}) while training error "
@@ -871,8 +871,11 @@ def _overfitting(degs: list[int], sc: dict[str, Any], rec: dict[str, Any], deg_n
     return overfit, over_from
 
 
-def _ratio(r: float) -> str:
-    """A ratio for a sentence: 3.4×, 42×, 4.2e+08×."""
+def _ratio(num: float, den: float) -> str:
+    """num / den for a sentence: 3.4×, 42×, 4.2e+08×; "many times" when the minimum ``den`` is 0 (an exact fit)."""
+    if not den > 0:
+        return "many times"
+    r = num / den
     if r < 10:
         return f"{r:.1f}×"
     if r < 10_000:
