@@ -44,11 +44,10 @@ from typing import Any, Iterable
 
 import numpy as np
 from numpy.typing import ArrayLike
-from scipy.linalg import solve_triangular
 
 from . import _basis
 from ._errors import FitError
-from ._linalg import condition_of, qr_r, single_thread_blas, t_quantile
+from ._linalg import condition_of, qr_r, single_thread_blas, solve_upper, solve_upper_transposed, t_quantile
 from ._polyfit import pow2_exponent, validate_xyw
 from ._validate import MAX_DEGREE, MAX_SEED, check_degrees, check_folds, check_holdout, check_repeats, check_seed
 
@@ -214,7 +213,7 @@ class DegreeSweep:
             nan = np.full_like(yhat, np.nan)
             return nan, nan.copy()
         a = _basis.chebyshev_vander(np.atleast_1d(t), degree + 1)
-        u = solve_triangular(r, a.T, trans="T")
+        u = solve_upper_transposed(r, a.T)
         se = sd * np.sqrt(np.sum(u * u, axis=0))
         if kind == "prediction":
             se = np.hypot(se, sd)  # no square leaves double precision
@@ -649,17 +648,81 @@ def _score_splits(partitions, degs: list[int], ncols: int, y_exp: int = 0) -> di
     out = dict(failed=failed, n_train_min=n_train_min, nspl=nspl)
     with np.errstate(invalid="ignore"):
         # means and SEs in the scaled units (squares stay inside double precision), then scaled back exactly
+        test_rmse, se = _test_summary(te_rmse)
         scaled = dict(
             tr_rmse=tr_rmse,
             te_rmse=te_rmse,
             train_rmse=np.nanmean(tr_rmse, axis=1) if nspl else np.full(ndeg, np.nan),
-            test_rmse=np.mean(te_rmse, axis=1),
-            se=np.std(te_rmse, axis=1, ddof=1) / math.sqrt(nspl) if nspl > 1 else np.full(ndeg, np.nan),
+            test_rmse=test_rmse,
+            se=se,
         )
         out["train_r2"] = np.mean(tr_r2, axis=1)
         out["test_r2"] = np.nanmean(te_r2, axis=1) if np.isfinite(te_r2).any() else np.full(ndeg, np.nan)
     out.update({k: np.ldexp(v, y_exp) if y_exp else v for k, v in scaled.items()})
     return out
+
+
+def _test_summary(te_rmse: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Mean test RMSE over the splits (last axis) and its standard error (NaN with a single split)."""
+    nspl = te_rmse.shape[-1]
+    mean = np.mean(te_rmse, axis=-1)
+    se = np.std(te_rmse, axis=-1, ddof=1) / math.sqrt(nspl) if nspl > 1 else np.full(mean.shape, np.nan)
+    return mean, se
+
+
+def recommend_from_test_errors(
+    degs: list[int],
+    te_rmse: np.ndarray,
+    scheme: str,
+    y_exp: int = 0,
+    error: np.ndarray | None = None,
+    maybe_failed: np.ndarray | None = None,
+) -> tuple[np.ndarray, np.ndarray]:
+    """The recommended degree of each sweep in a stack of test RMSEs (sweeps, degrees, splits), NaN where failed.
+
+    The summary (mean and standard error over the splits) and the rule (``_recommend``, the
+    one-standard-error rule with several splits) are those of ``sweep_from_blocks``; verdict
+    stability's fast redraws use this instead of building a whole DegreeSweep per redraw.
+
+    ``error`` (sweeps, degrees) bounds the error of every test RMSE of a degree (in the scaled units),
+    and ``maybe_failed`` (sweeps, degrees) marks degrees that might instead have failed; the second
+    result says, per sweep, whether the decision stands for any values within those bounds, failed or
+    not (``_decision_is_clear``); without ``error`` every decision is taken as it stands.
+    """
+    with np.errstate(invalid="ignore"):
+        test_rmse, se = _test_summary(te_rmse)
+    nspl = te_rmse.shape[-1]
+    out, clear = np.empty(len(test_rmse), dtype=np.int64), np.ones(len(test_rmse), dtype=bool)
+    for k, (m, e) in enumerate(zip(test_rmse, se, strict=True)):
+        if error is not None and not np.isfinite(m).any():
+            out[k], clear[k] = degs[0], False  # nothing to decide by here: the caller decides another way
+            continue
+        rec = _recommend(degs, dict(test_rmse=np.ldexp(m, y_exp), se=np.ldexp(e, y_exp), nspl=nspl), scheme, False)
+        out[k] = rec["degree"]
+        if error is not None:
+            irec = degs.index(rec["degree"])
+            maybe = maybe_failed is not None and bool(maybe_failed[k][: irec + 1].any() or maybe_failed[k][rec["imin"]])
+            clear[k] = not maybe and _decision_is_clear(m, e, error[k], irec, rec["imin"])
+    return out, clear
+
+
+def _decision_is_clear(mean, se, err, irec: int, imin: int) -> bool:
+    """True when the one-standard-error rule picks the same degree for every mean test RMSE within ``err`` of
+    ``mean`` (each split's RMSE within ``err``, so the SE within 2 ``err``): the minimum is clear of the other
+    degrees, every lower degree clear of the limit (minimum + SE) and the recommended degree clear inside it.
+    """
+    finite = np.isfinite(mean)
+    d_se = 2.0 * err
+    others = finite.copy()
+    others[imin] = False
+    if np.any(mean[others] - err[others] <= mean[imin] + err[imin]):
+        return False
+    limit, slack = mean[imin] + se[imin], err[imin] + d_se[imin]
+    lower = finite.copy()
+    lower[irec:] = False
+    if np.any(mean[lower] - err[lower] <= limit + slack):
+        return False
+    return irec == imin or bool(mean[irec] + err[irec] < limit - slack)
 
 
 def _failed_notes(deg_notes: dict[int, list[str]], failed: dict[int, str]) -> None:
@@ -871,9 +934,13 @@ def _ratio(r: float) -> str:
 
 
 def _triangular_inverse(r: np.ndarray) -> np.ndarray:
-    """Inverse of an upper-triangular matrix (inf/nan where singular, checked by callers)."""
+    """Inverse of an upper-triangular matrix (inf/nan where singular, checked by callers).
+
+    Fortran-ordered, as LAPACK returns it: the products that read its leading blocks then add in the
+    same order as they always have (a C-ordered copy of the same numbers rounds differently there).
+    """
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        return solve_triangular(r, np.eye(r.shape[0]), check_finite=False)
+        return np.asfortranarray(solve_upper(r, np.eye(r.shape[0])))
 
 
 def _tss(b: Block) -> float:
