@@ -18,7 +18,6 @@ from collections import OrderedDict
 from typing import Any, Callable
 
 import numpy as np
-from scipy.special import stdtrit
 
 import fitting
 from fitting import PolynomialFit, Selection
@@ -91,7 +90,7 @@ def handover_fit(service: FitService, ds_id: str, cols: Columns, degree: int) ->
 
 def _t95(fit: PolynomialFit) -> float:
     """Student's t quantile for 95 % two-sided intervals (NaN without residual degrees of freedom)."""
-    return float(stdtrit(fit.dof, 0.975)) if fit.dof > 0 else float("nan")
+    return fitting.t_quantile(0.95, fit.dof) if fit.dof > 0 else float("nan")
 
 
 def handover_model(service: FitService, ds_id: str, cols: Columns, split: SplitSettings, degree) -> ModelView:
