@@ -82,7 +82,7 @@ from ._errors import FitError
 from ._linalg import single_thread_blas
 from ._polyfit import PolynomialFit, pow2_exponent, validate_xyw
 from ._redraw import HAT_FOLD_ROWS, full_factor, redraw_verdicts
-from ._sweep import Block, Split, block_factor, kfold_deal, normalise_degrees, sweep_from_blocks
+from ._sweep import Block, Split, block_factor, kfold_deal, kfold_deals, normalise_degrees, sweep_from_blocks
 from ._validate import check_seed
 from ._verdict import VERDICT_DEGREES, VerdictFolds, check_tolerance, replicate_levels, verdict_folds
 
@@ -840,7 +840,7 @@ def _one_factor_counts(x, y, w, units, rng, *, draws, repeats, folds, degs, comm
     fac = full_factor(t, ys, w, degs)
     if fac is None:
         return None
-    labels = np.array([[kfold_deal(rng, n_units, folds)[units] for _ in range(repeats)] for _ in range(draws)])
+    labels = kfold_deals(rng, n_units, folds, draws * repeats)[:, units].reshape(draws, repeats, units.size)
     verdicts, clear = redraw_verdicts(fac, labels, folds, degs, common["scheme"], y_exp)
     splits = _splits(folds)
     for i in np.flatnonzero(~clear):  # near ties: decided by the sweep's own arithmetic

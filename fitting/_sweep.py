@@ -64,6 +64,7 @@ __all__ = [
     "holdout_fraction",
     "kfold_labels",
     "kfold_deal",
+    "kfold_deals",
     "shuffle_holdout_labels",
     "fold_labels",
     "holdout_mask",
@@ -329,12 +330,20 @@ def kfold_deal(rng: np.random.RandomState, n: int, k: int) -> np.ndarray:
     ``rng.shuffle`` of 0 .. n - 1, then fold j takes the next run of positions, as KFold does.
     Verdict stability deals its units with it, so its first redraw is the verdict's own folds.
     """
+    return kfold_deals(rng, n, k, 1)[0]
+
+
+def kfold_deals(rng: np.random.RandomState, n: int, k: int, count: int) -> np.ndarray:
+    """``count`` successive ``kfold_deal`` results, one per row: (count, n) fold labels.
+
+    ``rng.permutation(n)`` is ``rng.shuffle`` of 0 .. n - 1, so the stream of draws is the same.
+    """
     sizes = np.full(k, n // k, dtype=np.int64)
     sizes[: n % k] += 1
-    order = np.arange(n)
-    rng.shuffle(order)
-    labels = np.empty(n, dtype=np.int64)
-    labels[order] = np.repeat(np.arange(k, dtype=np.int64), sizes)
+    dealt = np.repeat(np.arange(k, dtype=np.int64), sizes)
+    labels = np.empty((count, n), dtype=np.int64)
+    for row in labels:
+        row[rng.permutation(n)] = dealt
     return labels
 
 
@@ -680,7 +689,7 @@ def recommend_from_test_errors(
 ) -> tuple[np.ndarray, np.ndarray]:
     """The recommended degree of each sweep in a stack of test RMSEs (sweeps, degrees, splits), NaN where failed.
 
-    The summary (mean and standard error over the splits) and the rule (``_recommend``, the
+    The summary (mean and standard error over the splits) and the rule (``_decide``, the
     one-standard-error rule with several splits) are those of ``sweep_from_blocks``; verdict
     stability's fast redraws use this instead of building a whole DegreeSweep per redraw.
 
@@ -697,12 +706,11 @@ def recommend_from_test_errors(
         if error is not None and not np.isfinite(m).any():
             out[k], clear[k] = degs[0], False  # nothing to decide by here: the caller decides another way
             continue
-        rec = _recommend(degs, dict(test_rmse=np.ldexp(m, y_exp), se=np.ldexp(e, y_exp), nspl=nspl), scheme, False)
-        out[k] = rec["degree"]
+        irec, imin, _ = _decide(np.ldexp(m, y_exp), np.ldexp(e, y_exp), nspl, False)
+        out[k] = degs[irec]
         if error is not None:
-            irec = degs.index(rec["degree"])
-            maybe = maybe_failed is not None and bool(maybe_failed[k][: irec + 1].any() or maybe_failed[k][rec["imin"]])
-            clear[k] = not maybe and _decision_is_clear(m, e, error[k], irec, rec["imin"])
+            maybe = maybe_failed is not None and bool(maybe_failed[k][: irec + 1].any() or maybe_failed[k][imin])
+            clear[k] = not maybe and _decision_is_clear(m, e, error[k], irec, imin)
     return out, clear
 
 
@@ -848,18 +856,29 @@ def _oscillation_note(notes: list[str], d: int, curve: np.ndarray, grid: np.ndar
         )
 
 
-def _recommend(degs: list[int], sc: dict[str, Any], scheme: str, single_split_rule: bool) -> dict[str, Any]:
-    """The recommended degree, its rule and the sentence that explains it."""
-    test_rmse, se, nspl = sc["test_rmse"], sc["se"], sc["nspl"]
+def _decide(test_rmse: np.ndarray, se: np.ndarray, nspl: int, single_split_rule: bool) -> tuple[int, int, bool]:
+    """(index of the recommended degree, index of the lowest mean test RMSE, whether the rule used the SE).
+
+    The one rule: the smallest degree whose mean test RMSE is within one standard error of the lowest
+    (one-standard-error rule); with a single split, or no SE, the lowest test RMSE itself.
+    """
     finite = np.isfinite(test_rmse)
     if not finite.any():
         raise FitError("No degree could be validated; check the data for duplicated x values or use fewer folds.")
     imin = int(np.nanargmin(np.where(finite, test_rmse, np.inf)))
-    dmin = degs[imin]
     has_se = nspl > 1 and bool(np.isfinite(se[imin]))
     if has_se and not single_split_rule:
         limit = test_rmse[imin] + se[imin]
-        irec = int(np.nonzero(finite & (test_rmse <= limit))[0][0])
+        return int(np.nonzero(finite & (test_rmse <= limit))[0][0]), imin, True
+    return imin, imin, False
+
+
+def _recommend(degs: list[int], sc: dict[str, Any], scheme: str, single_split_rule: bool) -> dict[str, Any]:
+    """The recommended degree (``_decide``), its rule and the sentence that explains it."""
+    test_rmse, se, nspl = sc["test_rmse"], sc["se"], sc["nspl"]
+    irec, imin, by_se = _decide(test_rmse, se, nspl, single_split_rule)
+    dmin = degs[imin]
+    if by_se:
         rule = "one-standard-error"
         why = (
             f"degree {degs[irec]} is the smallest degree whose mean test RMSE ({test_rmse[irec]:.4g}) is within one "
@@ -872,12 +891,13 @@ def _recommend(degs: list[int], sc: dict[str, Any], scheme: str, single_split_ru
                 f"and no smaller degree comes within one standard error of it, by {scheme}"
             )
     else:
-        irec = imin
         rule = "minimum-test-error"
         why = (
             f"degree {dmin} has the lowest test RMSE ({test_rmse[imin]:.4g}) on a single {scheme}; "
             "a single split has no standard error, so this choice is noisy. Prefer k-fold cross-validation"
         )
+    has_se = nspl > 1 and bool(np.isfinite(se[imin]))
+    finite = np.isfinite(test_rmse)
     return dict(degree=degs[irec], rule=rule, why=why, imin=imin, dmin=dmin, has_se=has_se, finite=finite)
 
 
