@@ -67,8 +67,8 @@ class FullFactor:
 
     def __init__(self, a, q, e, w, failed, p, y_scale: float):
         self.a = a  # (n + 1, K + 1): the weighted rows [A | y]
-        self.q = q  # (n + 1, K): the design's columns of Q
-        self.e = e  # (n + 1, n_degrees): the full fit's residuals of each degree
+        self.qt = np.ascontiguousarray(q.T)  # (K, n + 1): the design's columns of Q, one per row
+        self.et = np.ascontiguousarray(e.T)  # (n_degrees, n + 1): the full fit's residuals of each degree
         self.w = w  # (n + 1,): the weights (1 without weights), 0 on the padding row
         self.failed = failed  # (n_degrees,): the whole data cannot carry the degree
         self.p = p  # (n_degrees,): coefficients of each degree
@@ -77,7 +77,11 @@ class FullFactor:
 
     @property
     def n(self) -> int:
-        return self.q.shape[0] - 1
+        return self.qt.shape[1] - 1
+
+    @property
+    def ncols(self) -> int:
+        return self.qt.shape[0]
 
 
 def full_factor(t: np.ndarray, ys: np.ndarray, w: np.ndarray | None, degs: list[int]) -> FullFactor | None:
@@ -146,8 +150,8 @@ def fold_errors(fac: FullFactor, idx: np.ndarray) -> tuple[np.ndarray, np.ndarra
     columns. The arrays are laid out (row, row, fold) so that every step works on contiguous vectors.
     """
     m, nb, nd = idx.shape[1], idx.shape[0], fac.p.size
-    qt = np.ascontiguousarray(np.transpose(fac.q[idx], (2, 1, 0)))  # (K, m, B)
-    et = np.ascontiguousarray(np.transpose(fac.e[idx], (2, 1, 0)))  # (n_degrees, m, B)
+    qt = fac.qt[:, idx.T]  # (K, m, B)
+    et = fac.et[:, idx.T]  # (n_degrees, m, B)
     h = np.zeros((m, m, nb))
     sse, pivot = np.empty((nd, nb)), np.empty((nd, nb))
     di = 0
@@ -202,7 +206,7 @@ def redraw_verdicts(fac: FullFactor, labels: np.ndarray, folds: int, degs: list[
     nspl = repeats * folds
     idx = fold_rows(labels.reshape(draws * repeats, n), folds, n).reshape(draws, nspl, -1)
     m = idx.shape[2]
-    per_draw = max(1, _BATCH_ENTRIES // (nspl * max(m * m, fac.q.shape[1] * 4)))
+    per_draw = max(1, _BATCH_ENTRIES // (nspl * max(m * m, fac.ncols * 4)))
     verdicts, clear = [], []
     for start in range(0, draws, per_draw):
         chunk = idx[start : start + per_draw]
@@ -226,7 +230,7 @@ def _chunk_errors(fac: FullFactor, flat: np.ndarray):
     with np.errstate(invalid="ignore", divide="ignore"):
         rmse = np.sqrt(sse / wsum[:, None])
         # the residuals' rounding (eps · y_scale per column of Q) through (I − H_F)⁻¹, norm <= 1 / pivot
-        err = ERROR_REL * rmse + 1e3 * eps * fac.q.shape[1] * fac.y_scale / np.maximum(pivot, 0.0)
+        err = ERROR_REL * rmse + 1e3 * eps * fac.ncols * fac.y_scale / np.maximum(pivot, 0.0)
     failed = np.zeros(rmse.shape, dtype=bool)
     doubtful = np.zeros(rmse.shape, dtype=bool)
     weak = (pivot < PIVOT_WEAK) & ~fac.failed[None, :]
@@ -250,7 +254,7 @@ def training_errors(fac: FullFactor, idx: np.ndarray):
     the threshold is doubtful. The error bound grows with the leading block's condition, estimated by
     the ratio of its largest and smallest diagonal entries.
     """
-    n, ncols, nb = fac.n, fac.q.shape[1], idx.shape[0]
+    n, ncols, nb = fac.n, fac.ncols, idx.shape[0]
     held = np.zeros((nb, n + 1), dtype=bool)
     held[np.arange(nb)[:, None], idx] = True
     held[:, n] = True

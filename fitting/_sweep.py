@@ -700,37 +700,40 @@ def recommend_from_test_errors(
     """
     with np.errstate(invalid="ignore"):
         test_rmse, se = _test_summary(te_rmse)
-    nspl = te_rmse.shape[-1]
-    out, clear = np.empty(len(test_rmse), dtype=np.int64), np.ones(len(test_rmse), dtype=bool)
-    for k, (m, e) in enumerate(zip(test_rmse, se, strict=True)):
-        if error is not None and not np.isfinite(m).any():
-            out[k], clear[k] = degs[0], False  # nothing to decide by here: the caller decides another way
-            continue
-        irec, imin, _ = _decide(np.ldexp(m, y_exp), np.ldexp(e, y_exp), nspl, False)
-        out[k] = degs[irec]
-        if error is not None:
-            maybe = maybe_failed is not None and bool(maybe_failed[k][: irec + 1].any() or maybe_failed[k][imin])
-            clear[k] = not maybe and _decision_is_clear(m, e, error[k], irec, imin)
+    nspl, nd = te_rmse.shape[-1], te_rmse.shape[1]
+    # without error bounds a sweep with no validated degree raises, as in sweep_from_blocks
+    decidable = np.isfinite(test_rmse).any(axis=1) if error is not None else np.ones(len(test_rmse), dtype=bool)
+    k = np.flatnonzero(decidable)
+    out = np.full(len(test_rmse), degs[0], dtype=np.int64)  # a sweep with nothing to decide by: not clear
+    if k.size == 0:
+        return out, decidable
+    irec, imin, _ = _decide(np.ldexp(test_rmse[k], y_exp), np.ldexp(se[k], y_exp), nspl, False)
+    out[k] = np.asarray(degs, dtype=np.int64)[irec]
+    clear = decidable.copy()
+    if error is not None:
+        ok = _decision_is_clear(test_rmse[k], se[k], error[k], irec, imin)
+        if maybe_failed is not None:  # a degree up to the verdict, or the minimum, might have failed instead
+            mf = maybe_failed[k]
+            ok &= ~((mf & (np.arange(nd)[None, :] <= irec[:, None])).any(axis=1) | mf[np.arange(k.size), imin])
+        clear[k] = ok
     return out, clear
 
 
-def _decision_is_clear(mean, se, err, irec: int, imin: int) -> bool:
-    """True when the one-standard-error rule picks the same degree for every mean test RMSE within ``err`` of
-    ``mean`` (each split's RMSE within ``err``, so the SE within 2 ``err``): the minimum is clear of the other
-    degrees, every lower degree clear of the limit (minimum + SE) and the recommended degree clear inside it.
+def _decision_is_clear(mean, se, err, irec: np.ndarray, imin: np.ndarray) -> np.ndarray:
+    """Per sweep (rows), True when the one-standard-error rule picks the same degree for every mean test RMSE
+    within ``err`` of ``mean`` (each split's RMSE within ``err``, so the SE within 2 ``err``): the minimum is
+    clear of the other degrees, every lower degree clear of the limit (minimum + SE) and the recommended
+    degree clear inside it.
     """
+    rows, cols = np.arange(mean.shape[0]), np.arange(mean.shape[1])[None, :]
     finite = np.isfinite(mean)
-    d_se = 2.0 * err
-    others = finite.copy()
-    others[imin] = False
-    if np.any(mean[others] - err[others] <= mean[imin] + err[imin]):
-        return False
-    limit, slack = mean[imin] + se[imin], err[imin] + d_se[imin]
-    lower = finite.copy()
-    lower[irec:] = False
-    if np.any(mean[lower] - err[lower] <= limit + slack):
-        return False
-    return irec == imin or bool(mean[irec] + err[irec] < limit - slack)
+    m_min, e_min = mean[rows, imin], err[rows, imin]
+    with np.errstate(invalid="ignore"):
+        rival = ((mean - err <= (m_min + e_min)[:, None]) & finite & (cols != imin[:, None])).any(axis=1)
+        limit, slack = m_min + se[rows, imin], 3.0 * e_min
+        near = ((mean - err <= (limit + slack)[:, None]) & finite & (cols < irec[:, None])).any(axis=1)
+        outside = (irec != imin) & ~(mean[rows, irec] + err[rows, irec] < limit - slack)
+    return ~(rival | near | outside)
 
 
 def _failed_notes(deg_notes: dict[int, list[str]], failed: dict[int, str]) -> None:
@@ -856,21 +859,26 @@ def _oscillation_note(notes: list[str], d: int, curve: np.ndarray, grid: np.ndar
         )
 
 
-def _decide(test_rmse: np.ndarray, se: np.ndarray, nspl: int, single_split_rule: bool) -> tuple[int, int, bool]:
+def _decide(test_rmse: np.ndarray, se: np.ndarray, nspl: int, single_split_rule: bool):
     """(index of the recommended degree, index of the lowest mean test RMSE, whether the rule used the SE).
 
     The one rule: the smallest degree whose mean test RMSE is within one standard error of the lowest
-    (one-standard-error rule); with a single split, or no SE, the lowest test RMSE itself.
+    (one-standard-error rule); with a single split, or no SE, the lowest test RMSE itself. ``test_rmse``
+    and ``se`` are one sweep's (degrees,), giving whole numbers, or a stack (sweeps, degrees), giving arrays.
     """
-    finite = np.isfinite(test_rmse)
-    if not finite.any():
+    t2, s2 = np.atleast_2d(test_rmse), np.atleast_2d(se)
+    finite = np.isfinite(t2)
+    if not finite.any(axis=1).all():
         raise FitError("No degree could be validated; check the data for duplicated x values or use fewer folds.")
-    imin = int(np.nanargmin(np.where(finite, test_rmse, np.inf)))
-    has_se = nspl > 1 and bool(np.isfinite(se[imin]))
-    if has_se and not single_split_rule:
-        limit = test_rmse[imin] + se[imin]
-        return int(np.nonzero(finite & (test_rmse <= limit))[0][0]), imin, True
-    return imin, imin, False
+    rows = np.arange(t2.shape[0])
+    imin = np.argmin(np.where(finite, t2, np.inf), axis=1)
+    by_se = (nspl > 1) & np.isfinite(s2[rows, imin]) & (not single_split_rule)
+    with np.errstate(invalid="ignore"):
+        within = finite & (t2 <= (t2[rows, imin] + s2[rows, imin])[:, None])
+    irec = np.where(by_se, np.argmax(within, axis=1), imin)
+    if np.ndim(test_rmse) == 1:
+        return int(irec[0]), int(imin[0]), bool(by_se[0])
+    return irec, imin, by_se
 
 
 def _recommend(degs: list[int], sc: dict[str, Any], scheme: str, single_split_rule: bool) -> dict[str, Any]:
