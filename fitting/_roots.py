@@ -46,7 +46,7 @@ def brent_root(
         raise FitError("A root search was given an interval whose ends do not bracket a root; please report this.")
     x_blk = f_blk = s_pre = s_cur = 0.0
     for _ in range(maxiter):
-        if f_pre != 0.0 and f_cur != 0.0 and math.copysign(1.0, f_pre) != math.copysign(1.0, f_cur):
+        if f_pre != 0.0 and f_cur != 0.0 and (f_pre < 0.0) != (f_cur < 0.0):  # non-zero: the signs decide
             x_blk, f_blk = x_pre, f_pre  # the contrapoint: the bracket is [x_cur, x_blk]
             s_pre = s_cur = x_cur - x_pre
         if abs(f_blk) < abs(f_cur):  # keep the better point as x_cur
@@ -59,7 +59,9 @@ def brent_root(
         s_pre, s_cur = _step(x_pre, x_cur, x_blk, f_pre, f_cur, f_blk, s_pre, s_cur, s_bis, delta)
         x_pre, f_pre = x_cur, f_cur
         x_cur += s_cur if abs(s_cur) > delta else (delta if s_bis > 0 else -delta)
-        f_cur = _value(f, x_cur)
+        f_cur = float(f(x_cur))
+        if f_cur != f_cur:
+            _value(f, x_cur)  # raises, naming x
     raise FitError(f"A root search did not converge in {maxiter} steps; please report this data set.")
 
 
