@@ -8,12 +8,11 @@
 * ``t_quantile``: the two-sided Student t quantile (``_distributions``, no scipy).
 
 scipy is not imported here: its import costs more than a small command-line run spends on
-everything else. numpy's LAPACK does the work (``np.linalg.qr`` calls dgeqrf, and
-``np.linalg.solve`` on a triangular matrix reduces to the dtrsm that scipy's
-``solve_triangular`` calls: no pivot moves, as every entry below the diagonal is zero).
-Only a QR of more than ``QR_IN_PLACE_FROM`` entries goes to scipy's dgeqrf, which works in
-place where numpy would copy the matrix twice; tests/test_linalg.py checks that both give the
-same R.
+everything else. numpy's LAPACK does the work: dgeqrf through ``numpy.linalg.lapack_lite``,
+in place on a Fortran-ordered matrix as scipy's ``overwrite_a`` did (``np.linalg.qr`` would
+copy a tall matrix twice), and ``np.linalg.solve`` on a triangular matrix, which reduces to
+the dtrsm that scipy's ``solve_triangular`` calls (no pivot moves, as every entry below the
+diagonal is zero). tests/test_linalg.py checks that both give scipy's numbers.
 """
 
 from __future__ import annotations
@@ -25,10 +24,13 @@ import numpy as np
 from ._distributions import t_two_sided_quantile
 from ._errors import FitError
 
+try:
+    from numpy.linalg import lapack_lite as _lapack_lite
+except ImportError:  # pragma: no cover - numpy without its LAPACK wrapper: np.linalg.qr (copies the matrix)
+    _lapack_lite = None
+
 LD = np.longdouble
 EPS_LD = float(np.finfo(LD).eps)
-#: a QR of a matrix with more entries than this runs in place through scipy's LAPACK (memory)
-QR_IN_PLACE_FROM = 4_000_000
 
 __all__ = [
     "qr_r",
@@ -39,7 +41,6 @@ __all__ = [
     "t_quantile",
     "LD",
     "EPS_LD",
-    "QR_IN_PLACE_FROM",
 ]
 
 
@@ -108,17 +109,16 @@ def _cholesky_ld(g: np.ndarray) -> np.ndarray | None:
 def qr_r(a: np.ndarray) -> np.ndarray:
     """R of a Householder QR of ``a`` (m, k), padded with zero rows to (k, k) when m < k.
 
-    LAPACK dgeqrf; Q is never formed. Above ``QR_IN_PLACE_FROM`` entries it may overwrite
-    ``a`` when that is already a Fortran-ordered float64 array (pass a temporary).
+    LAPACK dgeqrf; Q is never formed. Overwrites ``a`` when it is already a Fortran-ordered
+    float64 array (pass a temporary).
     """
     m, k = a.shape
     if m == 0:
         return np.zeros((k, k))
-    in_place = m * k > QR_IN_PLACE_FROM
-    try:
-        r = _qr_r_in_place(a) if in_place else np.linalg.qr(np.asarray(a, dtype=np.float64), mode="r")
-    except np.linalg.LinAlgError as exc:  # pragma: no cover - LAPACK argument error
-        raise FitError(f"The QR factorisation failed ({exc}); please report this data set.") from None
+    if _lapack_lite is None:  # pragma: no cover
+        r = np.linalg.qr(np.asarray(a, dtype=np.float64), mode="r")
+    else:
+        r = _qr_r_in_place(np.asfortranarray(a, dtype=np.float64))
     if r.shape[0] < k:
         pad = np.zeros((k, k))
         pad[: r.shape[0]] = r
@@ -126,13 +126,16 @@ def qr_r(a: np.ndarray) -> np.ndarray:
     return r
 
 
-def _qr_r_in_place(a: np.ndarray) -> np.ndarray:
-    from scipy.linalg import lapack  # only for large matrices, where its import time is small beside the work
-
-    qr, _tau, _work, info = lapack.dgeqrf(np.asfortranarray(a, dtype=np.float64), overwrite_a=1)
+def _qr_r_in_place(buf: np.ndarray) -> np.ndarray:
+    """dgeqrf on a Fortran-ordered float64 matrix, in place (its transpose is the C-ordered array LAPACK reads)."""
+    m, k = buf.shape
+    tau, work = np.empty(min(m, k)), np.empty(1)
+    _lapack_lite.dgeqrf(m, k, buf.T, m, tau, work, -1, 0)  # workspace query: the blocked algorithm's size
+    work = np.empty(max(int(work[0]), k, 1))
+    info = _lapack_lite.dgeqrf(m, k, buf.T, m, tau, work, work.size, 0)["info"]
     if info != 0:  # pragma: no cover - LAPACK argument error
-        raise np.linalg.LinAlgError(f"LAPACK info {info}")
-    return np.triu(qr[: min(a.shape)])
+        raise FitError(f"The QR factorisation failed (LAPACK info {info}); please report this data set.")
+    return np.triu(buf[: min(m, k)])
 
 
 def solve_upper(r: np.ndarray, b: np.ndarray) -> np.ndarray:

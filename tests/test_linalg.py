@@ -11,7 +11,6 @@ import numpy as np
 import pytest
 from scipy.linalg import lapack, solve_triangular
 
-from fitting import _linalg
 from fitting._linalg import qr_r, solve_upper, solve_upper_transposed
 
 
@@ -34,13 +33,15 @@ def test_qr_r_equals_lapack_dgeqrf(shape):
         np.testing.assert_array_equal(qr_r(a), _scipy_r(a))
 
 
-def test_large_matrices_go_in_place_and_give_the_same_r(monkeypatch):
-    # source: scipy.linalg.lapack.dgeqrf; above QR_IN_PLACE_FROM entries the QR overwrites a Fortran array
+def test_a_fortran_ordered_matrix_is_factored_in_place():
+    # source: scipy.linalg.lapack.dgeqrf; a tall Fortran-ordered float64 matrix is overwritten, not copied
     rng = np.random.default_rng(3)
     a = rng.normal(size=(4000, 12))
     ref = _scipy_r(a)
-    monkeypatch.setattr(_linalg, "QR_IN_PLACE_FROM", 1000)
-    np.testing.assert_array_equal(qr_r(np.asfortranarray(a.copy())), ref)
+    work = np.asfortranarray(a.copy())
+    np.testing.assert_array_equal(qr_r(work), ref)
+    np.testing.assert_array_equal(np.triu(work[:12]), ref)  # R sits in the input's upper triangle
+    np.testing.assert_array_equal(qr_r(a), ref)  # a C-ordered input is copied first and kept
     assert qr_r(np.zeros((0, 3))).shape == (3, 3)
 
 
