@@ -50,7 +50,6 @@ from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
-from numpy.polynomial import chebyshev as _cheb
 
 from ._errors import FitError
 from ._polyfit import PolynomialFit, fit_polynomial, t_quantile
@@ -114,6 +113,8 @@ def _rule_of(fit: PolynomialFit, override: str | None = None) -> str:
 
 def _t_series(fit: PolynomialFit) -> np.ndarray:
     """Chebyshev coefficients of f in t = (x − offset)/scale (through the origin: times x/scale)."""
+    from numpy.polynomial import chebyshev as _cheb  # here: the sweep never needs it
+
     c = np.asarray(fit.basis_coefficients, dtype=float)
     if fit.through_origin:
         c = _cheb.chebmul(c, [fit.offset / fit.scale, 1.0])
@@ -122,6 +123,8 @@ def _t_series(fit: PolynomialFit) -> np.ndarray:
 
 def _slope(fit: PolynomialFit, x) -> np.ndarray:
     """f′(x) from the Chebyshev series (chain rule dt/dx = 1/scale)."""
+    from numpy.polynomial import chebyshev as _cheb  # here: the sweep never needs it
+
     c = _t_series(fit)
     d = _cheb.chebder(c) if c.size > 1 else np.zeros(1)
     t = (np.asarray(x, dtype=float) - fit.offset) / fit.scale
@@ -130,6 +133,8 @@ def _slope(fit: PolynomialFit, x) -> np.ndarray:
 
 def _turning_points(fit: PolynomialFit, span: tuple[float, float] | None = None) -> np.ndarray:
     """Interior x of ``span`` (default: the calibrated range) where f′ changes sign, sorted, polished by Brent."""
+    from numpy.polynomial import chebyshev as _cheb  # here: the sweep never needs it
+
     c = _t_series(fit)
     if c.size <= 2:
         return np.empty(0)
