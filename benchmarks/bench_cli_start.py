@@ -171,7 +171,7 @@ def main(argv=None) -> None:
             _table(cases, env, args.repeats)
         title, env = modes[0]
         print(f"\nimport cost (ms, cumulative, one run each, {title.split(' (')[0]}; nested: fitting's figure")
-        print("includes the pandas and numpy it imports first; scipy.linalg only for QRs above 4 million entries):")
+        print("includes the pandas and numpy it imports first; scipy and sklearn would show here if loaded):")
         for name, (ours, ref) in cases.items():
             for who, argv_ in (("degreescope", ours[1:]), ("reference", ref[1:])):
                 costs = import_costs(argv_, env)

@@ -88,7 +88,6 @@ from ._distributions import f_quantile, f_upper_tail, t_upper_quantile
 from ._errors import FitError
 from ._linalg import single_thread_blas
 from ._polyfit import PolynomialFit, pow2_exponent, validate_xyw
-from ._redraw import HAT_FOLD_ROWS, full_factor, redraw_verdicts
 from ._sweep import Block, Split, block_factor, kfold_deal, kfold_deals, normalise_degrees, sweep_from_blocks
 from ._validate import check_seed
 from ._verdict import VERDICT_DEGREES, VerdictFolds, check_tolerance, replicate_levels, verdict_folds
@@ -837,6 +836,8 @@ def _one_factor_counts(x, y, w, units, rng, *, draws, repeats, folds, degs, comm
 
     The redraws are the same partitions, dealt from ``rng`` in the same order, as ``_exact_redraws``.
     """
+    from ._redraw import HAT_FOLD_ROWS, full_factor, redraw_verdicts  # here: a fit never needs it
+
     n_units = int(units.max()) + 1
     sizes = np.sort(np.bincount(units))[::-1]
     if n_units > EXACT_REDRAW_LIMIT or int(sizes[: math.ceil(n_units / folds)].sum()) > HAT_FOLD_ROWS:
