@@ -51,7 +51,7 @@ __all__ = [
 ]
 
 #: folds of at most this many rows take the one-factorisation route
-HAT_FOLD_ROWS = 16
+HAT_FOLD_ROWS = 24
 #: a pivot of I − H_F at or below RANK_TOL × rows × eps counts as a training set that cannot carry the degree
 RANK_TOL = 1e3
 #: relative part of the error bound on a test RMSE; common practice, no source
