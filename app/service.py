@@ -36,7 +36,6 @@ from pathlib import Path
 from typing import Callable, NamedTuple
 
 import numpy as np
-from scipy.special import stdtrit
 
 import fitting
 from fitting import MAX_DEGREE, MAX_SEED, DegreeSweep, FitError, PolynomialFit, Selection, Table
@@ -799,7 +798,7 @@ class FitService:
         i = view.sweep.index(d)
         return ModelView(
             fit=fit,
-            t_quantile=float(stdtrit(fit.dof, 0.975)) if fit.dof > 0 else float("nan"),  # Student t, 95 % two-sided
+            t_quantile=fitting.t_quantile(0.95, fit.dof) if fit.dof > 0 else float("nan"),  # Student t, 95 % two-sided
             residual_x=rx,
             residuals=ry - fit.predict(rx),
             residual_sampled=view.sampled,

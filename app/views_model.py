@@ -18,7 +18,6 @@ from collections import OrderedDict
 from typing import Any, Callable
 
 import numpy as np
-from scipy.special import stdtrit
 
 import fitting
 from fitting import PolynomialFit, Selection
@@ -98,7 +97,7 @@ def handover_fit(service: FitService, ds_id: str, cols: Columns, degree: int) ->
 
 def _t_quantile(fit: PolynomialFit, level: float = 0.95) -> float:
     """Student's t quantile for two-sided intervals at ``level`` (NaN without residual degrees of freedom)."""
-    return float(stdtrit(fit.dof, 0.5 + level / 2)) if fit.dof > 0 else float("nan")
+    return fitting.t_quantile(level, fit.dof) if fit.dof > 0 else float("nan")
 
 
 def handover_model(

@@ -13,6 +13,7 @@ Public surface (everything else is private and may change):
     WEIGHTINGS                                        # named weighting rules: none, 1/x, 1/x2, 1/y, 1/y2
     weights_for(rule, x, y, *, rows=None) -> weights (inverse variances) or None
     weight_at(rule, x0, y_hat0) -> the weight of a new reading at x0
+    t_quantile(level, dof) -> float                   # Student t multiplier of a two-sided interval
 
     read_back(fit, y0, *, readings=1, level=0.95, weighting=None) -> ReadBack   # x0 from a reading, with
                                                       # the calibration interval and u(x0)
@@ -87,6 +88,7 @@ from ._evidence import (
     replicate_levels,
     verdict_stability,
 )
+from ._linalg import t_quantile
 from ._polyfit import PolynomialFit, fit_polynomial
 from ._stream import fold_labels, holdout_mask, sweep_source
 from ._sweep import DegreeSweep, sweep_degrees
@@ -146,6 +148,7 @@ __all__ = [
     "read_values",
     "sweep_degrees",
     "sweep_source",
+    "t_quantile",
     "verdict_rule_text",
     "verdict_sweep",
     "weight_at",

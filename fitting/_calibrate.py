@@ -12,17 +12,18 @@ How a reading is read back (inverse prediction)
 * Roots are searched only inside the calibrated x range (``fit.domain``). The slope f′ is
   a polynomial: the real roots of its Chebyshev series (numpy's companion-matrix
   ``chebroots``), together with a uniform scan of 64·(d + 1) points, give every point where
-  f′ may change sign; each sign change is polished with brentq. Between two such turning
-  points f is monotonic, so it crosses y0 at most once there and a bracketed brentq finds
-  that crossing: no crossing of y0 depends on a scan being fine enough. (Only two turning
-  points closer together than the scan spacing, whose companion-matrix roots also came out
-  complex, could go unseen.) Two or more roots, or none, are said in words, never silently.
+  f′ may change sign; each sign change is polished with Brent's method (``_roots.brent_root``,
+  the iterates of scipy.optimize.brentq). Between two such turning points f is monotonic, so
+  it crosses y0 at most once there and the bracketed root finder finds that crossing: no
+  crossing of y0 depends on a scan being fine enough. (Only two turning points closer together
+  than the scan spacing, whose companion-matrix roots also came out complex, could go unseen.)
+  Two or more roots, or none, are said in words, never silently.
 * Interval: the calibration interval of the NIST/SEMATECH e-Handbook of Statistical
   Methods, section 4.5.2.1: the x whose prediction interval for a new reading (the mean of
   k readings) contains y0, i.e. |ŷ(x) − y0| ≤ t·sp(x) with
   sp(x)² = s²/(k·w(x)) + se_fit(x)², t the two-sided Student quantile on the fit's residual
   degrees of freedom. Each end is the first crossing of |ŷ(x) − y0| = t·sp(x) met when
-  walking out from x0 over a grid of 2001 points (bracket, then brentq). An end that is not
+  walking out from x0 over a grid of 2001 points (bracket, then Brent's method). An end that is not
   reached inside the range is reported as unbounded (``None``) with a sentence. Where the
   set is not one piece (a curve that turns), the piece holding x0 is given. A point where the
   weight is undefined counts as outside the interval.
@@ -49,11 +50,10 @@ from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
-from numpy.polynomial import chebyshev as _cheb
-from scipy.optimize import brentq
 
 from ._errors import FitError
 from ._polyfit import PolynomialFit, fit_polynomial, t_quantile
+from ._roots import brent_root
 from ._weighting import COLUMN_RULE, WEIGHTINGS, check_weighting, weight_at, weights_for
 
 __all__ = [
@@ -113,6 +113,8 @@ def _rule_of(fit: PolynomialFit, override: str | None = None) -> str:
 
 def _t_series(fit: PolynomialFit) -> np.ndarray:
     """Chebyshev coefficients of f in t = (x − offset)/scale (through the origin: times x/scale)."""
+    from numpy.polynomial import chebyshev as _cheb  # here: the sweep never needs it
+
     c = np.asarray(fit.basis_coefficients, dtype=float)
     if fit.through_origin:
         c = _cheb.chebmul(c, [fit.offset / fit.scale, 1.0])
@@ -121,6 +123,8 @@ def _t_series(fit: PolynomialFit) -> np.ndarray:
 
 def _slope(fit: PolynomialFit, x) -> np.ndarray:
     """f′(x) from the Chebyshev series (chain rule dt/dx = 1/scale)."""
+    from numpy.polynomial import chebyshev as _cheb  # here: the sweep never needs it
+
     c = _t_series(fit)
     d = _cheb.chebder(c) if c.size > 1 else np.zeros(1)
     t = (np.asarray(x, dtype=float) - fit.offset) / fit.scale
@@ -128,7 +132,9 @@ def _slope(fit: PolynomialFit, x) -> np.ndarray:
 
 
 def _turning_points(fit: PolynomialFit, span: tuple[float, float] | None = None) -> np.ndarray:
-    """Interior x of ``span`` (default: the calibrated range) where f′ changes sign, sorted, polished with brentq."""
+    """Interior x of ``span`` (default: the calibrated range) where f′ changes sign, sorted, polished by Brent."""
+    from numpy.polynomial import chebyshev as _cheb  # here: the sweep never needs it
+
     c = _t_series(fit)
     if c.size <= 2:
         return np.empty(0)
@@ -147,7 +153,7 @@ def _turning_points(fit: PolynomialFit, span: tuple[float, float] | None = None)
     out = []
     for i in np.flatnonzero(s[1:] != s[:-1]):
         a, b = float(pts[i]), float(pts[i + 1])
-        out.append(brentq(lambda v: float(_slope(fit, v)), a, b, xtol=_xtol(fit), rtol=4 * _EPS))
+        out.append(brent_root(lambda v: float(_slope(fit, v)), a, b, xtol=_xtol(fit), rtol=4 * _EPS))
     return np.array(out)
 
 
@@ -209,10 +215,36 @@ def monotonic_ranges(fit: PolynomialFit) -> CurveShape:
 # roots of f(x) = y0 inside the range
 
 
-def _roots(fit: PolynomialFit, y0: float, edges: list[float]) -> list[float]:
-    """Every x in the range with f(x) = y0: at most one per monotonic piece between ``edges``."""
+def _scalar_curve(fit: PolynomialFit):
+    """f(x) for one float x, by the very operations of ``fit.predict`` (the same bits, without numpy's per-call cost).
+
+    Clenshaw's recurrence on t = (x − offset)/scale, as ``_basis.chebyshev_values``; times x/scale through the
+    origin. The root finder calls it a few dozen times per reading.
+    """
+    coef = [float(c) for c in np.asarray(fit.basis_coefficients, dtype=np.float64)]
+    offset, scale, origin = float(fit.offset), float(fit.scale), bool(fit.through_origin)
+    head, tail = coef[0], coef[:0:-1]
+
+    def value(x: float) -> float:
+        t = (x - offset) / scale
+        two_t = 2 * t
+        b1 = b2 = 0.0
+        for ck in tail:
+            b1, b2 = ck + two_t * b1 - b2, b1
+        yhat = head + t * b1 - b2
+        return yhat * (x / scale) if origin else yhat
+
+    return value
+
+
+def _roots(fit: PolynomialFit, y0: float, edges: list[float], curve=None) -> list[float]:
+    """Every x in the range with f(x) = y0: at most one per monotonic piece between ``edges``.
+
+    ``curve`` is ``_scalar_curve(fit)`` when the caller already has it.
+    """
+    f = _scalar_curve(fit) if curve is None else curve
     found: list[float] = []
-    g = [float(fit.predict(e)) - y0 for e in edges]
+    g = [f(float(e)) - y0 for e in edges]
     for i in range(len(edges) - 1):
         a, b, ga, gb = edges[i], edges[i + 1], g[i], g[i + 1]
         if ga == 0.0:
@@ -220,7 +252,7 @@ def _roots(fit: PolynomialFit, y0: float, edges: list[float]) -> list[float]:
         if gb == 0.0:
             found.append(b)
         if ga * gb < 0:
-            found.append(brentq(lambda v: float(fit.predict(v)) - y0, a, b, xtol=_xtol(fit), rtol=4 * _EPS))
+            found.append(brent_root(lambda v: f(v) - y0, a, b, xtol=_xtol(fit), rtol=4 * _EPS))
     found.sort()
     tol = 1e-12 * (edges[-1] - edges[0])
     return [r for i, r in enumerate(found) if i == 0 or r - found[i - 1] > tol]
@@ -328,7 +360,7 @@ def _interval_end(st: _Setting, y0: float, x0: float, side: int) -> float | None
     if f(inner) > 0:  # only at x0 itself, when s = 0 (an exact fit) and rounding leaves ŷ(x0) a hair off y0
         return inner
     a, b = (outer, inner) if side < 0 else (inner, outer)
-    return brentq(f, a, b, xtol=_xtol(st.fit), rtol=4 * _EPS)
+    return brent_root(f, a, b, xtol=_xtol(st.fit), rtol=4 * _EPS)
 
 
 def _no_single_root(st: _Setting, y0: float, roots: list[float]) -> ReadBackRow:

@@ -65,12 +65,11 @@ from typing import Any
 
 import numpy as np
 from numpy.typing import ArrayLike
-from scipy.linalg import solve_triangular
 
 from . import _basis
 from ._errors import FitError
 from ._linalg import EPS_LD as _EPS_LD
-from ._linalg import LD, _cholesky_ld, _solve_rtr, condition_of, qr_r, single_thread_blas, t_quantile
+from ._linalg import LD, _cholesky_ld, _solve_rtr, condition_of, qr_r, single_thread_blas, solve_upper, t_quantile
 from ._weighting import COLUMN_RULE, check_weighting, weight_at, weights_for
 
 MODEL_FORMAT = "degreescope.polynomial-model"
@@ -746,7 +745,7 @@ def _qr_start(d: _Design, degree: int) -> _Start:
         )
         # an error only: a caller that catches it should not also find a warning on stderr
         raise FitError(msg)
-    coef = solve_triangular(r_qr, r_aug[:ncols, ncols]).astype(LD)
+    coef = solve_upper(r_qr, r_aug[:ncols, ncols]).astype(LD)
     # Preconditioner for the corrections: the extended-precision factor of the Gram matrix, when it
     # exists, contracts the error by cond² eps_ld per step instead of cond² eps with the double R.
     r_ld = _cholesky_ld(d.gram)

@@ -44,11 +44,10 @@ from typing import Any, Iterable
 
 import numpy as np
 from numpy.typing import ArrayLike
-from scipy.linalg import solve_triangular
 
 from . import _basis
 from ._errors import FitError
-from ._linalg import condition_of, qr_r, single_thread_blas, t_quantile
+from ._linalg import condition_of, qr_r, single_thread_blas, solve_upper, solve_upper_transposed, t_quantile
 from ._polyfit import pow2_exponent, validate_xyw
 from ._validate import MAX_DEGREE, MAX_SEED, check_degrees, check_folds, check_holdout, check_repeats, check_seed
 
@@ -65,6 +64,7 @@ __all__ = [
     "holdout_fraction",
     "kfold_labels",
     "kfold_deal",
+    "kfold_deals",
     "shuffle_holdout_labels",
     "fold_labels",
     "holdout_mask",
@@ -220,7 +220,7 @@ class DegreeSweep:
             nan = np.full_like(yhat, np.nan)
             return nan, nan.copy()
         a = _basis.chebyshev_vander(np.atleast_1d(t), degree + 1)
-        u = solve_triangular(r, a.T, trans="T")
+        u = solve_upper_transposed(r, a.T)
         se = sd * np.sqrt(np.sum(u * u, axis=0))
         if kind == "prediction":
             if weight is not None:
@@ -340,12 +340,20 @@ def kfold_deal(rng: np.random.RandomState, n: int, k: int) -> np.ndarray:
     ``rng.shuffle`` of 0 .. n - 1, then fold j takes the next run of positions, as KFold does.
     Verdict stability deals its units with it, so its first redraw is the verdict's own folds.
     """
+    return kfold_deals(rng, n, k, 1)[0]
+
+
+def kfold_deals(rng: np.random.RandomState, n: int, k: int, count: int) -> np.ndarray:
+    """``count`` successive ``kfold_deal`` results, one per row: (count, n) fold labels.
+
+    ``rng.permutation(n)`` is ``rng.shuffle`` of 0 .. n - 1, so the stream of draws is the same.
+    """
     sizes = np.full(k, n // k, dtype=np.int64)
     sizes[: n % k] += 1
-    order = np.arange(n)
-    rng.shuffle(order)
-    labels = np.empty(n, dtype=np.int64)
-    labels[order] = np.repeat(np.arange(k, dtype=np.int64), sizes)
+    dealt = np.repeat(np.arange(k, dtype=np.int64), sizes)
+    labels = np.empty((count, n), dtype=np.int64)
+    for row in labels:
+        row[rng.permutation(n)] = dealt
     return labels
 
 
@@ -659,17 +667,83 @@ def _score_splits(partitions, degs: list[int], ncols: int, y_exp: int = 0) -> di
     out = dict(failed=failed, n_train_min=n_train_min, nspl=nspl)
     with np.errstate(invalid="ignore"):
         # means and SEs in the scaled units (squares stay inside double precision), then scaled back exactly
+        test_rmse, se = _test_summary(te_rmse)
         scaled = dict(
             tr_rmse=tr_rmse,
             te_rmse=te_rmse,
             train_rmse=np.nanmean(tr_rmse, axis=1) if nspl else np.full(ndeg, np.nan),
-            test_rmse=np.mean(te_rmse, axis=1),
-            se=np.std(te_rmse, axis=1, ddof=1) / math.sqrt(nspl) if nspl > 1 else np.full(ndeg, np.nan),
+            test_rmse=test_rmse,
+            se=se,
         )
         out["train_r2"] = np.mean(tr_r2, axis=1)
         out["test_r2"] = np.nanmean(te_r2, axis=1) if np.isfinite(te_r2).any() else np.full(ndeg, np.nan)
     out.update({k: np.ldexp(v, y_exp) if y_exp else v for k, v in scaled.items()})
     return out
+
+
+def _test_summary(te_rmse: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Mean test RMSE over the splits (last axis) and its standard error (NaN with a single split)."""
+    nspl = te_rmse.shape[-1]
+    mean = np.mean(te_rmse, axis=-1)
+    se = np.std(te_rmse, axis=-1, ddof=1) / math.sqrt(nspl) if nspl > 1 else np.full(mean.shape, np.nan)
+    return mean, se
+
+
+def recommend_from_test_errors(
+    degs: list[int],
+    te_rmse: np.ndarray,
+    scheme: str,
+    y_exp: int = 0,
+    error: np.ndarray | None = None,
+    maybe_failed: np.ndarray | None = None,
+) -> tuple[np.ndarray, np.ndarray]:
+    """The recommended degree of each sweep in a stack of test RMSEs (sweeps, degrees, splits), NaN where failed.
+
+    The summary (mean and standard error over the splits) and the rule (``_decide``, the
+    one-standard-error rule with several splits) are those of ``sweep_from_blocks``; verdict
+    stability's fast redraws use this instead of building a whole DegreeSweep per redraw.
+
+    ``error`` (sweeps, degrees) bounds the error of every test RMSE of a degree (in the scaled units),
+    and ``maybe_failed`` (sweeps, degrees) marks degrees that might instead have failed; the second
+    result says, per sweep, whether the decision stands for any values within those bounds, failed or
+    not (``_decision_is_clear``); without ``error`` every decision is taken as it stands.
+    """
+    with np.errstate(invalid="ignore"):
+        test_rmse, se = _test_summary(te_rmse)
+    nspl, nd = te_rmse.shape[-1], te_rmse.shape[1]
+    # without error bounds a sweep with no validated degree raises, as in sweep_from_blocks
+    decidable = np.isfinite(test_rmse).any(axis=1) if error is not None else np.ones(len(test_rmse), dtype=bool)
+    k = np.flatnonzero(decidable)
+    out = np.full(len(test_rmse), degs[0], dtype=np.int64)  # a sweep with nothing to decide by: not clear
+    if k.size == 0:
+        return out, decidable
+    irec, imin, _ = _decide(np.ldexp(test_rmse[k], y_exp), np.ldexp(se[k], y_exp), nspl, False)
+    out[k] = np.asarray(degs, dtype=np.int64)[irec]
+    clear = decidable.copy()
+    if error is not None:
+        ok = _decision_is_clear(test_rmse[k], se[k], error[k], irec, imin)
+        if maybe_failed is not None:  # a degree up to the verdict, or the minimum, might have failed instead
+            mf = maybe_failed[k]
+            ok &= ~((mf & (np.arange(nd)[None, :] <= irec[:, None])).any(axis=1) | mf[np.arange(k.size), imin])
+        clear[k] = ok
+    return out, clear
+
+
+def _decision_is_clear(mean, se, err, irec: np.ndarray, imin: np.ndarray) -> np.ndarray:
+    """Per sweep (rows), True when the one-standard-error rule picks the same degree for every mean test RMSE
+    within ``err`` of ``mean`` (each split's RMSE within ``err``, so the SE within 2 ``err``): the minimum is
+    clear of the other degrees, every lower degree clear of the limit (minimum + SE) and the recommended
+    degree clear inside it.
+    """
+    rows, cols = np.arange(mean.shape[0]), np.arange(mean.shape[1])[None, :]
+    finite = np.isfinite(mean)
+    m_min, e_min = mean[rows, imin], err[rows, imin]
+    with np.errstate(invalid="ignore"):
+        rival = ((mean - err <= (m_min + e_min)[:, None]) & finite & (cols != imin[:, None])).any(axis=1)
+        limit, slack = m_min + se[rows, imin], 3.0 * e_min
+        near = ((mean - err <= (limit + slack)[:, None]) & finite & (cols < irec[:, None])).any(axis=1)
+        outside = (irec != imin) & ~(mean[rows, irec] + err[rows, irec] < limit - slack)
+    return ~(rival | near | outside)
 
 
 def _failed_notes(deg_notes: dict[int, list[str]], failed: dict[int, str]) -> None:
@@ -795,18 +869,34 @@ def _oscillation_note(notes: list[str], d: int, curve: np.ndarray, grid: np.ndar
         )
 
 
-def _recommend(degs: list[int], sc: dict[str, Any], scheme: str, single_split_rule: bool) -> dict[str, Any]:
-    """The recommended degree, its rule and the sentence that explains it."""
-    test_rmse, se, nspl = sc["test_rmse"], sc["se"], sc["nspl"]
-    finite = np.isfinite(test_rmse)
-    if not finite.any():
+def _decide(test_rmse: np.ndarray, se: np.ndarray, nspl: int, single_split_rule: bool):
+    """(index of the recommended degree, index of the lowest mean test RMSE, whether the rule used the SE).
+
+    The one rule: the smallest degree whose mean test RMSE is within one standard error of the lowest
+    (one-standard-error rule); with a single split, or no SE, the lowest test RMSE itself. ``test_rmse``
+    and ``se`` are one sweep's (degrees,), giving whole numbers, or a stack (sweeps, degrees), giving arrays.
+    """
+    t2, s2 = np.atleast_2d(test_rmse), np.atleast_2d(se)
+    finite = np.isfinite(t2)
+    if not finite.any(axis=1).all():
         raise FitError("No degree could be validated; check the data for duplicated x values or use fewer folds.")
-    imin = int(np.nanargmin(np.where(finite, test_rmse, np.inf)))
+    rows = np.arange(t2.shape[0])
+    imin = np.argmin(np.where(finite, t2, np.inf), axis=1)
+    by_se = (nspl > 1) & np.isfinite(s2[rows, imin]) & (not single_split_rule)
+    with np.errstate(invalid="ignore"):
+        within = finite & (t2 <= (t2[rows, imin] + s2[rows, imin])[:, None])
+    irec = np.where(by_se, np.argmax(within, axis=1), imin)
+    if np.ndim(test_rmse) == 1:
+        return int(irec[0]), int(imin[0]), bool(by_se[0])
+    return irec, imin, by_se
+
+
+def _recommend(degs: list[int], sc: dict[str, Any], scheme: str, single_split_rule: bool) -> dict[str, Any]:
+    """The recommended degree (``_decide``), its rule and the sentence that explains it."""
+    test_rmse, se, nspl = sc["test_rmse"], sc["se"], sc["nspl"]
+    irec, imin, by_se = _decide(test_rmse, se, nspl, single_split_rule)
     dmin = degs[imin]
-    has_se = nspl > 1 and bool(np.isfinite(se[imin]))
-    if has_se and not single_split_rule:
-        limit = test_rmse[imin] + se[imin]
-        irec = int(np.nonzero(finite & (test_rmse <= limit))[0][0])
+    if by_se:
         rule = "one-standard-error"
         why = (
             f"degree {degs[irec]} is the smallest degree whose mean test RMSE ({test_rmse[irec]:.4g}) is within one "
@@ -819,12 +909,13 @@ def _recommend(degs: list[int], sc: dict[str, Any], scheme: str, single_split_ru
                 f"and no smaller degree comes within one standard error of it, by {scheme}"
             )
     else:
-        irec = imin
         rule = "minimum-test-error"
         why = (
             f"degree {dmin} has the lowest test RMSE ({test_rmse[imin]:.4g}) on a single {scheme}; "
             "a single split has no standard error, so this choice is noisy. Prefer k-fold cross-validation"
         )
+    has_se = nspl > 1 and bool(np.isfinite(se[imin]))
+    finite = np.isfinite(test_rmse)
     return dict(degree=degs[irec], rule=rule, why=why, imin=imin, dmin=dmin, has_se=has_se, finite=finite)
 
 
@@ -884,9 +975,13 @@ def _ratio(num: float, den: float) -> str:
 
 
 def _triangular_inverse(r: np.ndarray) -> np.ndarray:
-    """Inverse of an upper-triangular matrix (inf/nan where singular, checked by callers)."""
+    """Inverse of an upper-triangular matrix (inf/nan where singular, checked by callers).
+
+    Fortran-ordered, as LAPACK returns it: the products that read its leading blocks then add in the
+    same order as they always have (a C-ordered copy of the same numbers rounds differently there).
+    """
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        return solve_triangular(r, np.eye(r.shape[0]), check_finite=False)
+        return np.asfortranarray(solve_upper(r, np.eye(r.shape[0])))
 
 
 def _tss(b: Block) -> float:

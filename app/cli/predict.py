@@ -8,7 +8,7 @@ from __future__ import annotations
 import json
 
 from .._atomic import write_text_atomic
-from . import _args, _output, _readback
+from . import _args, _output
 
 HELP = (
     "Predictions with confidence and prediction intervals from a saved model; with --from-y, readings read back "
@@ -147,6 +147,7 @@ def run(args) -> int:
     import numpy as np
 
     from .. import handover
+    from . import _readback  # here: only predict --from-y reads back, and fit and sweep start faster without it
 
     read_back = _readback.check_mode(args)
     model = load_model(args.model)

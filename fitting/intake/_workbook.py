@@ -13,7 +13,6 @@ import os
 import re
 import zipfile
 from dataclasses import replace
-from xml.etree import ElementTree
 
 from .._errors import IntakeError
 from ._decode import binary_error, signature_of
@@ -196,6 +195,8 @@ def cells_to_text(rows: list[list]) -> tuple[str, str]:
 
 def _sheet_paths(z: zipfile.ZipFile) -> dict[str, str]:
     """Sheet name -> worksheet XML path, from the workbook part and its relationships."""
+    from xml.etree import ElementTree  # here, not at import: only workbooks need it
+
     book = ElementTree.fromstring(z.read("xl/workbook.xml"))
     rels = ElementTree.fromstring(z.read("xl/_rels/workbook.xml.rels"))
     target = {r.get("Id"): r.get("Target", "") for r in rels}
@@ -208,6 +209,8 @@ def _sheet_paths(z: zipfile.ZipFile) -> dict[str, str]:
 
 def formulas_without_value(data: bytes, sheet: str) -> int:
     """How many formula cells of an .xlsx/.xlsm sheet were saved without a value (0 when unknown)."""
+    from xml.etree import ElementTree  # here, not at import: only workbooks need it
+
     try:
         with zipfile.ZipFile(io.BytesIO(data)) as z:
             path = _sheet_paths(z).get(sheet)
