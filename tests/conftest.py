@@ -39,3 +39,19 @@ def sensor(fit_service):
 
     info = fit_service.load_path(SAMPLES / "sensor_calibration.csv")
     return fit_service, info, Columns(info.default_x, info.default_y)
+
+
+@pytest.fixture(scope="module")
+def browser():
+    """Debian's headless Chromium for one test module (a test file may define its own instead)."""
+    from browser_support import browser_problem, chromium
+
+    problem = browser_problem()
+    if problem:
+        if in_ci():
+            pytest.fail(f"browser tests must run in CI, but {problem}", pytrace=False)
+        pytest.skip(problem)
+    from playwright.sync_api import sync_playwright
+
+    with sync_playwright() as p, chromium(p) as b:
+        yield b

@@ -11,8 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from browser_support import ARTIFACTS, ServerThread, browser_problem, chromium, trace, wait_for_title
-from conftest import in_ci
+from browser_support import ARTIFACTS, ServerThread, trace, wait_for_title
 
 pytestmark = [pytest.mark.browser, pytest.mark.slow]
 
@@ -44,19 +43,6 @@ def server(tmp_path_factory):
     srv = ServerThread(app.create_app(str(path)).server).start()
     yield srv
     srv.stop()
-
-
-@pytest.fixture(scope="module")
-def browser():
-    problem = browser_problem()
-    if problem:
-        if in_ci():
-            pytest.fail(f"browser tests must run in CI, but {problem}", pytrace=False)
-        pytest.skip(problem)
-    from playwright.sync_api import sync_playwright
-
-    with sync_playwright() as p, chromium(p) as b:
-        yield b
 
 
 def open_page(browser, server, width: int):
