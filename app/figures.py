@@ -1,8 +1,7 @@
-"""Pure figure builders: plain views in, ``go.Figure`` (or a ``dash.Patch``) out.
+"""Pure figure builders: plain views in, ``go.Figure`` out (the degree path is drawn in the browser, app/layers.py).
 
-Trace order is fixed (see ``ids.FIT_TRACE_*`` / ``ids.ERR_TRACE_*``) so that a degree
-change can send a partial update of the curve, the bands and the highlight and
-leave the point traces alone.
+Trace order is fixed (see ``ids.POINTS_TRACE_*``, ``ids.FIT_TRACE_*``, ``ids.ERR_TRACE_*``) so
+that the page's script and the figure sync can address the curve and bands by index.
 
 Colours are a palette of our own, chosen to stay apart under the common forms of
 colour blindness (blue against amber), and every pair that matters also differs in
