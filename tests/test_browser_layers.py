@@ -2,7 +2,8 @@
 
 The page serves invented data with 20,000 rows of unsorted, uniformly spread x, so that the
 points layer draws densities. A key press must redraw the curve layer and nothing else (counted
-by plotly's ``plotly_afterplot`` event on each graph), the pointer must reach the points under
+by plotly's ``plotly_afterplot`` and ``plotly_animated`` events on each graph), the error chart's
+ring must reach the new degree before the degree rests, the pointer must reach the points under
 the transparent curve layer, a zoom on either layer must move the other, and the image of the
 chart must hold both layers. Screenshots at 1024 and 1440 px go to tests/artifacts/ (git-ignored).
 """
@@ -24,7 +25,9 @@ COUNT_REDRAWS = """() => {
     ['fit-points', 'fit-chart', 'error-chart'].forEach(id => {
         const gd = document.querySelector('#' + id + ' .js-plotly-plot');
         window.__redraws[id] = 0;
+        window.__redraws[id + ' transitions'] = 0;
         gd.on('plotly_afterplot', () => { window.__redraws[id] += 1; });
+        gd.on('plotly_animated', () => { window.__redraws[id + ' transitions'] += 1; });
     });
 }"""
 
@@ -59,6 +62,15 @@ def degree_title(page) -> str:
     return page.evaluate("() => document.querySelector('#fit-chart .js-plotly-plot')._fullLayout.title.text")
 
 
+# where the error chart's ring is drawn and where degree d lies on its axis, in page pixels
+RING_AT = """(d) => {
+    const eg = document.querySelector('#error-chart .js-plotly-plot'), xa = eg._fullLayout.xaxis;
+    const ring = eg.querySelector('.shapelayer path[data-index="1"]').getBoundingClientRect();
+    const box = eg.getBoundingClientRect();
+    return [ring.x + ring.width / 2 - box.x, xa._offset + xa.l2p(d)];
+}"""
+
+
 def test_a_key_press_redraws_the_curve_layer_only(browser, server):
     ctx, page = open_page(browser, server, 1440)
     try:
@@ -76,13 +88,17 @@ def test_a_key_press_redraws_the_curve_layer_only(browser, server):
                                    ".title.text !== t", arg=title)  # fmt: skip
         d = int(page.locator("#degree [role=slider]").get_attribute("aria-valuenow"))
         assert degree_title(page).startswith(f"Degree {d} fit")
+        shown = page.text_content("#fit-chart .gtitle")  # the words on screen, not only in the layout
+        assert shown.startswith(f"Degree {d} fit"), shown
         assert trace(page, FIT, CURVE)["y"] != before
+        ring_x, axis_x = page.evaluate(RING_AT, d)  # moved at once, before the degree rests (SETTLE_MS)
+        assert abs(ring_x - axis_x) < 1.5, (ring_x, axis_x)
         page.wait_for_function(
             "(d) => document.querySelector('#error-chart .js-plotly-plot')._fullLayout.shapes[1].xanchor === d", arg=d
         )
         redraws = page.evaluate("() => window.__redraws")
-        assert redraws["fit-chart"] >= 3  # one per key press (the settled sync may add one)
-        assert redraws["fit-points"] == 0, redraws  # the points layer was not touched
+        assert redraws["fit-chart transitions"] >= 3, redraws  # one per key press
+        assert redraws["fit-points"] == 0 and redraws["fit-points transitions"] == 0, redraws  # not touched
         # once the degree rests, the page follows: the model card and the address
         page.wait_for_function("(d) => location.search.includes('degree=' + d)", arg=d)
         page.wait_for_function(

@@ -85,37 +85,102 @@
         }
         return out;
     }
+    // Plotly's own text (a title, an annotation, a legend entry) given new words in place, line
+    // for line, with no redraw; false when the lines or markup differ (the figure sync at rest
+    // then draws it)
+    function retext(node, words) {
+        if (!node) { return false; }
+        const lines = String(words).split("<br>");
+        if (lines.some(function (l) { return /[<>&]/.test(l); })) { return false; }
+        const spans = node.querySelectorAll("tspan.line");
+        if (spans.length !== (lines.length > 1 ? lines.length : 0)) { return false; }
+        if (spans.length) {
+            lines.forEach(function (l, i) { spans[i].textContent = l; });
+        } else {
+            node.textContent = lines[0];
+        }
+        node.setAttribute("data-unformatted", words);
+        return true;
+    }
+    function caption(gd) { return gd.querySelector('g.annotation[data-index="0"] .annotation-text'); }
+    // the layout keeps the words too, so that a zoom or resize before the sync draws the same
+    function keepTitle(gd, words) {
+        [gd.layout, gd._fullLayout].forEach(function (l) { if (l && l.title) { l.title.text = words; } });
+        return retext(gd.querySelector(".gtitle"), words);
+    }
+    function keepCaption(gd, words) {
+        [gd.layout, gd._fullLayout].forEach(function (l) {
+            if (l && l.annotations && l.annotations[0]) { l.annotations[0].text = words; }
+        });
+        return retext(caption(gd), words);
+    }
+    function keepName(gd, i, name) {
+        const old = gd._fullData[i] && gd._fullData[i].name;
+        [gd.data[i], gd._fullData[i]].forEach(function (t) { if (t) { t.name = name; } });
+        const entry = Array.prototype.find.call(gd.querySelectorAll(".legendtext"), function (n) {
+            return n.textContent === old;
+        });
+        return !entry || retext(entry, name);
+    }
+    // The error chart's column (shape 0) and ring (shape 1) moved as drawn, by a translation of
+    // their paths from where plotly put them; true when both could be moved that way.
+    function moveMark(eg, d, y) {
+        const fl = eg._fullLayout, sh = fl && fl.shapes;
+        if (!sh || sh.length < 2 || !fl.xaxis || !fl.yaxis) { return false; }
+        const xa = fl.xaxis, ya = fl.yaxis, ring = sh[1];
+        const path = function (i) { return eg.querySelector('.shapelayer path[data-index="' + i + '"]'); };
+        const col = path(0), circle = path(1);
+        if (!col || (y !== null) !== !!circle) { return false; }  // the ring appears or goes: plotly draws it
+        const ypx = function (v) { return ya.type === "log" ? ya.l2p(Math.log10(v)) : ya.l2p(v); };
+        const dx = xa.l2p(d) - xa.l2p(sh[0].x0 + 0.4);
+        col.setAttribute("transform", "translate(" + dx + ",0)");
+        if (circle) {
+            const rx = xa.l2p(d) - xa.l2p(ring.xanchor), ry = ypx(y) - ypx(ring.yanchor);
+            if (!Number.isFinite(ry)) { return false; }
+            circle.setAttribute("transform", "translate(" + rx + "," + ry + ")");
+        }
+        return true;
+    }
+    // a curve's new values through plotly's transition path: the few traces are drawn again,
+    // without a full replot of axes, legend and annotations
+    const STEP = {transition: {duration: 0}, frame: {duration: 0, redraw: false}, mode: "immediate"};
     let markTurn = 0;
 
     window.degreescopeLayers = {
         /* the frames and bands in force (the figure sync hands them over: panels/degree.py SYNC_JS) */
         use: function (newFrames, newBands) { frames = newFrames; bands = newBands || []; },
-        /* A key press: draw degree d's curve and shown bands straight into the curve layer (one
-           Plotly.update of its few traces; no other graph is touched), then move the error chart's
-           mark two animation frames later, for the latest press only. The figure properties are
-           brought up to date once the degree rests (panels/degree.py, SYNC_JS). */
+        /* A key press: degree d's curve and shown bands go straight into the curve layer (one
+           transition of its few traces; no other graph is touched), its title, caption and
+           legend entry take the new words in place, and the error chart's mark moves one
+           animation frame later, for the latest press only. The figure properties are brought
+           up to date once the degree rests (panels/degree.py, SYNC_JS). */
         draw: function (frames, d, bands) {
             const gd = graph("fit-chart"), f = frames && frames.frames && frames.frames[String(d)];
             const ix = frames && frames.traces;
             if (!gd || !f || !ix || !window.Plotly || !gd.data || gd.data.length <= ix.curve) { return false; }
             const meta = gd.layout && gd.layout.meta;
             if (!meta || meta.frames !== frames.stamp) { return false; }  // frames of another split: wait for them
-            const idx = [ix.curve], ys = [f32(f.curve)], names = [f.name];
-            const add = function (key) { idx.push(ix[key]); ys.push(f32(f[key])); names.push(gd.data[ix[key]].name); };
+            const idx = [ix.curve], data = [{y: f32(f.curve)}];
+            const add = function (key) { idx.push(ix[key]); data.push({y: f32(f[key])}); };
             if (bands.indexOf("prediction") >= 0) { add("pred_lo"); add("pred_hi"); }
             if (bands.indexOf("confidence") >= 0) { add("conf_lo"); add("conf_hi"); }
-            window.Plotly.update(gd, {y: ys, name: names}, {"title.text": f.title, "annotations[0].text": f.fit_caption}, idx);
+            window.Plotly.animate(gd, {data: data, traces: idx}, STEP);
+            const words = [keepTitle(gd, f.title), keepCaption(gd, f.fit_caption), keepName(gd, ix.curve, f.name)];
+            if (words.indexOf(false) >= 0) {  // words plotly has to lay out: one relayout of the text
+                window.Plotly.relayout(gd, {"title.text": f.title, "annotations[0].text": f.fit_caption});
+            }
             const me = ++markTurn;
-            requestAnimationFrame(function () { requestAnimationFrame(function () {
+            requestAnimationFrame(function () {
                 const eg = graph("error-chart");
-                if (me !== markTurn || !eg || !eg.layout || !eg.layout.shapes || eg.layout.shapes.length < 2) { return; }
+                if (me !== markTurn || !eg || !eg.layout) { return; }
                 const y = f.test_rmse;
+                if (moveMark(eg, d, y) && keepCaption(eg, f.caption)) { return; }
                 window.Plotly.relayout(eg, {
                     "shapes[0].x0": d - 0.4, "shapes[0].x1": d + 0.4, "shapes[1].xanchor": d,
                     "shapes[1].yanchor": y === null ? 1 : y, "shapes[1].visible": y !== null,
                     "annotations[0].text": f.caption
                 });
-            }); });
+            });
             return true;
         },
 

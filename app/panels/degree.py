@@ -2,10 +2,12 @@
 
 Every degree's curve and bands arrive once per split (``ids.DEGREE_FRAMES``, app/layers.py).
 The page's script (``assets/degreescope-layers.js``) watches the slider's thumb and, on a key
-press or a drag, copies one degree's arrays straight into the curve layer of the fit chart (one
-``Plotly.update`` of its few traces) and moves the error chart's mark two animation frames
-later, for the latest degree only. No Dash callback and no request run on that path: each
-would cost the page several store updates.
+press or a drag, copies one degree's arrays straight into the curve layer of the fit chart (a
+plotly transition of its few traces, which redraws those traces and nothing else), puts the
+new title, caption and legend words into the drawn text, and moves the error chart's mark one
+animation frame later, for the latest degree only, by moving the drawn shapes. No Dash
+callback, no request and no full plotly redraw run on that path: a Dash callback costs the
+page several store updates, and a plotly relayout or update redraws the whole graph.
 
 Once the degree has rested for SETTLE_MS, the script writes it to ``ids.DEGREE_SETTLED``.
 Then both figures' properties are patched to what is drawn (SYNC_JS, which also hands the

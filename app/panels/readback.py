@@ -30,7 +30,7 @@ from .settings import from_key
 
 SLOT = "tools"
 
-# Texts some chart code draws straight into the plot (Plotly.update) rather than through the
+# Texts the page's script draws straight into the plot on a key press rather than through the
 # figure property: a patch of the property makes the graph redraw from the stored figure, so the
 # patch carries the texts on screen along, unchanged, and the chart keeps showing what it showed.
 LIVE_TEXTS_JS = """
