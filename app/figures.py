@@ -321,11 +321,11 @@ def _error_traces(view: SplitView) -> list[dict]:
 
 def _degree_markers(view: SplitView, dv: DegreeView) -> list[dict]:
     """The current degree (a ring on its test RMSE) and the recommended one (a star on the verdict's)."""
-    # the ring itself is a layout shape (``degree_ring``), so that moving it redraws no trace;
-    # this trace only gives it its legend entry
+    # a marker, round on the log axis at any size (a pixel-sized layout shape on a log axis is
+    # drawn squashed by plotly); on a key press the page's script moves the drawn marker itself
     current = _line(
-        x=[None],
-        y=[None],
+        x=[dv.degree],
+        y=[_current_y(dv)],
         mode="markers",
         name=text.LEGEND_CURRENT,
         marker=dict(symbol="circle-open", size=20, color=HIGHLIGHT, line=dict(width=3)),
@@ -356,7 +356,7 @@ def error_figure(view: SplitView, dv: DegreeView) -> go.Figure:
         layout["yaxis"]["minor"] = dict(ticks="inside", ticklen=4, showgrid=True, gridcolor="#f1eee7")
     deg = view.sweep.degrees.astype(int)
     layout["xaxis"].update(dtick=1 if deg.size <= 13 else 2, range=[-0.5, int(deg.max()) + 0.5])
-    layout["shapes"] = [_degree_band(dv.degree), degree_ring(dv.degree, _current_y(dv))]
+    layout["shapes"] = [_degree_band(dv.degree)]
     return go.Figure(data=traces, layout=layout)
 
 
@@ -383,19 +383,6 @@ def log_ticks(view: SplitView) -> dict:
         decades = range(int(np.floor(np.log10(lo))) - 1, int(np.ceil(np.log10(hi))) + 1)
         ticks = [m * 10.0**e for e in decades for m in steps]
     return dict(tickmode="array", tickvals=ticks, ticktext=[f"{v:.3g}" for v in ticks])
-
-
-RING_PX = 10  # radius of the current degree's ring on the error chart
-
-
-def degree_ring(d: int, y: float | None) -> dict:
-    """The current degree's ring on its test RMSE: a circle of fixed pixel size anchored at (d, y); hidden without y."""
-    r = RING_PX
-    return dict(
-        type="circle", xref="x", yref="y", xsizemode="pixel", ysizemode="pixel", xanchor=d,
-        yanchor=y if y is not None else 1.0, x0=-r, x1=r, y0=-r, y1=r, visible=y is not None,
-        line=dict(color=HIGHLIGHT, width=3), layer="above",
-    )  # fmt: skip
 
 
 def _degree_band(d: int) -> dict:

@@ -101,7 +101,10 @@ def degree_frames(service: FitService, ds: str, cols, split, view: SplitView) ->
         "curve": ids.FIT_TRACE_CURVE, "pred_lo": ids.FIT_TRACE_PRED_LO, "pred_hi": ids.FIT_TRACE_PRED_HI,
         "conf_lo": ids.FIT_TRACE_CONF_LO, "conf_hi": ids.FIT_TRACE_CONF_HI,
     }  # fmt: skip
-    return {"max": view.max_degree, "frames": frames, "traces": traces, "stamp": frames_stamp(view)}
+    return {
+        "max": view.max_degree, "frames": frames, "traces": traces, "ring": ids.ERR_TRACE_CURRENT,
+        "stamp": frames_stamp(view),
+    }  # fmt: skip
 
 
 def frames_stamp(view: SplitView) -> str:

@@ -86,8 +86,9 @@ def test_error_chart_marks_current_and_recommended_degree(sensor):
     service, info, cols = sensor
     view, dv = views(service, info, cols, SplitSettings(mode="kfold"), 6)
     fig = figures.error_figure(view, dv)
-    ring = fig.layout.shapes[1]
-    assert (ring.type, ring.xanchor, ring.yanchor, ring.visible) == ("circle", 6, dv.test_rmse, True)
+    ring = fig.data[ids.ERR_TRACE_CURRENT]  # a round marker on the log axis
+    assert (list(ring.x), list(ring.y), ring.marker.symbol) == ([6], [dv.test_rmse], "circle-open")
+    assert fig.layout.shapes[0].x0 == 6 - 0.4 and fig.layout.shapes[0].x1 == 6 + 0.4  # the column
     assert list(fig.data[ids.ERR_TRACE_RECOMMENDED].x) == [view.steady.recommended_degree]
     assert fig.data[ids.ERR_TRACE_TEST].error_y.visible is True  # SE across folds
     np.testing.assert_allclose(fig.data[ids.ERR_TRACE_TEST].error_y.array, view.sweep.test_rmse_se)
@@ -167,9 +168,9 @@ def test_a_missing_test_rmse_is_a_gap_on_the_error_chart_not_the_minimum(sensor)
     service, info, cols = sensor
     view, dv = views(service, info, cols, SplitSettings(mode="kfold"), 4)
     fig = figures.error_figure(view, dv)
-    assert fig.layout.shapes[1].yanchor == dv.test_rmse
+    assert list(fig.data[ids.ERR_TRACE_CURRENT].y) == [dv.test_rmse]
     rec = view.recommended_degree
     assert list(fig.data[ids.ERR_TRACE_RECOMMENDED].y) == [view.steady.test_rmse[view.steady.index(rec)]]
     missing = dataclasses.replace(dv, test_rmse=float("nan"))
-    assert figures.error_figure(view, missing).layout.shapes[1].visible is False
+    assert list(figures.error_figure(view, missing).data[ids.ERR_TRACE_CURRENT].y) == [None]
     assert "test RMSE —" in figures.fit_figure(view, missing).layout.annotations[0].text

@@ -70,6 +70,10 @@ def shot(page, name: str) -> None:
     page.screenshot(path=str(ARTIFACTS / f"{name}.png"), full_page=True)
 
 
+# the error chart's ring: the one marker of trace ids.ERR_TRACE_CURRENT
+RING = "document.querySelector('#error-chart .js-plotly-plot')._fullData[3].x[0] === "
+
+
 def degree_now(page) -> int:
     return int(re.match(r"Degree (\d+)", chart_title(page, FIT)).group(1))
 
@@ -78,8 +82,8 @@ def wait_degree(page, d: int) -> None:
     wait_for_title(page, FIT, f"Degree {d} fit")
     page.wait_for_function(
         """(d) => { const gd = document.querySelector('#error-chart .js-plotly-plot');
-            const ring = gd && gd._fullLayout && gd._fullLayout.shapes && gd._fullLayout.shapes[1];
-            return !!ring && ring.xanchor === d; }""",  # the current degree's ring is a layout shape
+            const ring = gd && gd._fullData && gd._fullData[3];  // ids.ERR_TRACE_CURRENT
+            return !!ring && !!ring.x && ring.x[0] === d; }""",  # the current degree's ring
         arg=d,
     )
 
@@ -144,9 +148,7 @@ def test_mouse_drag_moves_the_degree(page):
     )
     page.mouse.up()
     wait_degree(page, 10)
-    page.wait_for_function(  # the error chart's ring (a layout shape) sits on degree 10
-        "() => document.querySelector('#error-chart .js-plotly-plot')._fullLayout.shapes[1].xanchor === 10"
-    )
+    page.wait_for_function("() => " + RING + "10")  # the error chart's ring sits on degree 10
     shot(page, "02-dragged-to-10")
 
 

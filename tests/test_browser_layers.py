@@ -65,9 +65,9 @@ def degree_title(page) -> str:
 # where the error chart's ring is drawn and where degree d lies on its axis, in page pixels
 RING_AT = """(d) => {
     const eg = document.querySelector('#error-chart .js-plotly-plot'), xa = eg._fullLayout.xaxis;
-    const ring = eg.querySelector('.shapelayer path[data-index="1"]').getBoundingClientRect();
-    const box = eg.getBoundingClientRect();
-    return [ring.x + ring.width / 2 - box.x, xa._offset + xa.l2p(d)];
+    const dot = eg.querySelectorAll('.scatterlayer .trace')[3].querySelector('path.point');  // ids.ERR_TRACE_CURRENT
+    const ring = dot.getBoundingClientRect(), box = eg.getBoundingClientRect();
+    return [ring.x + ring.width / 2 - box.x, xa._offset + xa.l2p(d), ring.width, ring.height];
 }"""
 
 
@@ -91,10 +91,11 @@ def test_a_key_press_redraws_the_curve_layer_only(browser, server):
         shown = page.text_content("#fit-chart .gtitle")  # the words on screen, not only in the layout
         assert shown.startswith(f"Degree {d} fit"), shown
         assert trace(page, FIT, CURVE)["y"] != before
-        ring_x, axis_x = page.evaluate(RING_AT, d)  # moved at once, before the degree rests (SETTLE_MS)
+        ring_x, axis_x, w, h = page.evaluate(RING_AT, d)  # moved at once, before the degree rests (SETTLE_MS)
         assert abs(ring_x - axis_x) < 1.5, (ring_x, axis_x)
+        assert abs(w - h) < 1, (w, h)  # round
         page.wait_for_function(
-            "(d) => document.querySelector('#error-chart .js-plotly-plot')._fullLayout.shapes[1].xanchor === d", arg=d
+            "(d) => document.querySelector('#error-chart .js-plotly-plot')._fullData[3].x[0] === d", arg=d
         )
         redraws = page.evaluate("() => window.__redraws")
         assert redraws["fit-chart transitions"] >= 3, redraws  # one per key press

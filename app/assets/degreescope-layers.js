@@ -122,23 +122,23 @@
         });
         return !entry || retext(entry, name);
     }
-    // The error chart's column (shape 0) and ring (shape 1) moved as drawn, by a translation of
-    // their paths from where plotly put them; true when both could be moved that way.
-    function moveMark(eg, d, y) {
+    // The error chart's column (layout shape 0) and ring (the one marker of trace `ring`) moved
+    // as drawn: the column translated from where plotly put it, the marker put at (d, y) on the
+    // axes; true when both could be moved that way.
+    function moveMark(eg, ring, d, y) {
         const fl = eg._fullLayout, sh = fl && fl.shapes;
-        if (!sh || sh.length < 2 || !fl.xaxis || !fl.yaxis) { return false; }
-        const xa = fl.xaxis, ya = fl.yaxis, ring = sh[1];
-        const path = function (i) { return eg.querySelector('.shapelayer path[data-index="' + i + '"]'); };
-        const col = path(0), circle = path(1);
-        if (!col || (y !== null) !== !!circle) { return false; }  // the ring appears or goes: plotly draws it
-        const ypx = function (v) { return ya.type === "log" ? ya.l2p(Math.log10(v)) : ya.l2p(v); };
-        const dx = xa.l2p(d) - xa.l2p(sh[0].x0 + 0.4);
-        col.setAttribute("transform", "translate(" + dx + ",0)");
-        if (circle) {
-            const rx = xa.l2p(d) - xa.l2p(ring.xanchor), ry = ypx(y) - ypx(ring.yanchor);
-            if (!Number.isFinite(ry)) { return false; }
-            circle.setAttribute("transform", "translate(" + rx + "," + ry + ")");
-        }
+        const col = eg.querySelector('.shapelayer path[data-index="0"]');
+        if (!sh || !sh.length || !col || !fl.xaxis || !fl.yaxis || y === null) { return false; }
+        const traces = eg.querySelectorAll(".scatterlayer .trace");
+        const mine = Array.prototype.find.call(traces, function (g) {
+            const cd = g.__data__ && g.__data__[0];
+            return !!cd && !!cd.trace && cd.trace.index === ring;
+        });
+        const dot = mine && mine.querySelector("path.point");
+        const py = fl.yaxis.c2p(y);
+        if (!dot || !Number.isFinite(py)) { return false; }  // the ring appears: plotly draws it
+        col.setAttribute("transform", "translate(" + (fl.xaxis.c2p(d) - fl.xaxis.c2p(sh[0].x0 + 0.4)) + ",0)");
+        dot.setAttribute("transform", "translate(" + fl.xaxis.c2p(d) + "," + py + ")");
         return true;
     }
     // a curve's new values through plotly's transition path: the few traces are drawn again,
@@ -174,12 +174,10 @@
                 const eg = graph("error-chart");
                 if (me !== markTurn || !eg || !eg.layout) { return; }
                 const y = f.test_rmse;
-                if (moveMark(eg, d, y) && keepCaption(eg, f.caption)) { return; }
-                window.Plotly.relayout(eg, {
-                    "shapes[0].x0": d - 0.4, "shapes[0].x1": d + 0.4, "shapes[1].xanchor": d,
-                    "shapes[1].yanchor": y === null ? 1 : y, "shapes[1].visible": y !== null,
-                    "annotations[0].text": f.caption
-                });
+                if (moveMark(eg, frames.ring, d, y) && keepCaption(eg, f.caption)) { return; }
+                window.Plotly.update(eg, {x: [[d]], y: [[y]]}, {
+                    "shapes[0].x0": d - 0.4, "shapes[0].x1": d + 0.4, "annotations[0].text": f.caption
+                }, [frames.ring]);
             });
             return true;
         },

@@ -5,7 +5,7 @@ The page's script (``assets/degreescope-layers.js``) watches the slider's thumb 
 press or a drag, copies one degree's arrays straight into the curve layer of the fit chart (a
 plotly transition of its few traces, which redraws those traces and nothing else), puts the
 new title, caption and legend words into the drawn text, and moves the error chart's mark one
-animation frame later, for the latest degree only, by moving the drawn shapes. No Dash
+animation frame later, for the latest degree only, by moving its drawn column and marker. No Dash
 callback, no request and no full plotly redraw run on that path: a Dash callback costs the
 page several store updates, and a plotly relayout or update redraws the whole graph.
 
@@ -51,12 +51,11 @@ function(settled, bands, frames, value) {
     p.assign(["data", ix.curve, "name"], f.name);
     p.assign(["layout", "title", "text"], f.title);
     p.assign(["layout", "annotations", 0, "text"], f.fit_caption);
-    const e = new dc.Patch();  // the error chart's column and ring are shapes: a layout change only
+    const e = new dc.Patch();  // the error chart's column (a shape) and ring (a one-point trace)
     e.assign(["layout", "shapes", 0, "x0"], d - 0.4);
     e.assign(["layout", "shapes", 0, "x1"], d + 0.4);
-    e.assign(["layout", "shapes", 1, "xanchor"], d);
-    e.assign(["layout", "shapes", 1, "yanchor"], f.test_rmse === null ? 1 : f.test_rmse);
-    e.assign(["layout", "shapes", 1, "visible"], f.test_rmse !== null);
+    e.assign(["data", frames.ring, "x"], [d]);
+    e.assign(["data", frames.ring, "y"], [f.test_rmse]);
     e.assign(["layout", "annotations", 0, "text"], f.caption);
     return [p.build(), e.build()];
 }
