@@ -38,7 +38,7 @@ Public surface (everything else is private and may change):
                   repeats=1, seed=0, weights=None) -> DegreeSweep
     verdict_sweep(x, y, *, weights=None, groups=None, degrees=None, seed=0,
                   replicates="auto", replicate_tolerance=0.0) -> DegreeSweep   # the one verdict rule
-    verdict_rule_text(n, *, grouped=False, levels=None, degrees=None, seed=0) -> str
+    verdict_rule_text(n, *, grouped=False, levels=None, degrees=None, seed=0, replicated=None) -> str
     VERDICT_FOLDS, VERDICT_REPEATS, VERDICT_REPEAT_LIMIT   # the verdict's policy
     MAX_DEGREE, MAX_SEED                              # limits of every sweep
     sweep_source(source, *, x=None, y=None, degrees=range(0, 13), folds=10, holdout=None,

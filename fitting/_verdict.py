@@ -80,12 +80,13 @@ def verdict_rule_text(
     levels: int | None = None,
     degrees: Iterable[int] | None = None,
     seed: int = 0,
+    replicated: int | None = None,
 ) -> str:
     """The verdict's rule as a sentence, for ``n`` rows, before anything is run.
 
     ``grouped``: the number of groups when a group column is given (True when unknown).
     ``levels``: the number of distinct x levels when x has replicates that the folds
-    keep together (None otherwise).
+    keep together (None otherwise); ``replicated``: how many of them have replicates (all when None).
     """
     degs = sorted({int(d) for d in (VERDICT_DEGREES if degrees is None else degrees)})
     span = _span(degs)
@@ -93,11 +94,11 @@ def verdict_rule_text(
         count = f" ({int(grouped)} groups)" if not isinstance(grouped, bool) else ""
         return f"Cross-validation holding out one group at a time{count}, {span}; {_RULE_TAIL}."
     if levels is not None:
-        k = min(VERDICT_FOLDS, int(levels))
-        return (
-            f"{k}-fold cross-validation, whole x levels held out ({int(levels)} levels with replicates), "
-            f"{span}; {_RULE_TAIL}."
-        )
+        k, m = min(VERDICT_FOLDS, int(levels)), int(levels)
+        some = replicated is not None and int(replicated) < m
+        which = f"{m:,} levels, {int(replicated):,} of them" if some else f"{m:,} levels"
+        which += " with replicates"
+        return f"{k}-fold cross-validation, whole x levels held out ({which}), {span}; {_RULE_TAIL}."
     k = min(VERDICT_FOLDS, int(n))
     repeats = f" repeated {VERDICT_REPEATS} times" if n <= VERDICT_REPEAT_LIMIT else ""
     return f"{k}-fold cross-validation{repeats}, {span}, seed {seed}; {_RULE_TAIL}."
@@ -211,7 +212,8 @@ def verdict_folds(
             raise FitError(
                 "With this replicate tolerance all x values form one level; lower the tolerance (it is in x units)."
             )
-        rule = verdict_rule_text(n, levels=m, degrees=degrees, seed=seed)
+        replicated = int((np.bincount(levels) > 1).sum())
+        rule = verdict_rule_text(n, levels=m, degrees=degrees, seed=seed, replicated=replicated)
         return VerdictFolds(levels, "x levels", min(VERDICT_FOLDS, m), 1, rule)
     repeats = VERDICT_REPEATS if n <= VERDICT_REPEAT_LIMIT else 1
     rule = verdict_rule_text(n, degrees=degrees, seed=seed)

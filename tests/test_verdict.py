@@ -144,3 +144,15 @@ def test_rule_text_before_running():
     assert "whole x levels held out (30 levels" in verdict_rule_text(90, levels=30)
     with pytest.raises(fitting.FitError, match="auto"):
         verdict_sweep([1.0, 2.0, 3.0], [1.0, 2.0, 3.0], replicates="sometimes")
+
+
+def test_rule_text_says_how_many_levels_have_replicates():
+    # invented continuous x with one value repeated: the levels are held out whole (no leak), and the
+    # sentence says that one level has replicates, not that all 199 have
+    rng = np.random.default_rng(3)
+    x = rng.uniform(0.0, 10.0, 200)
+    x[1] = x[0]
+    y = 1.0 + 0.5 * x + rng.normal(0.0, 0.1, x.size)
+    res = verdict_sweep(x, y, degrees=range(0, 4))
+    assert "whole x levels held out (199 levels, 1 of them with replicates)" in res.verdict_rule
+    assert "(1,200 levels with replicates)" in verdict_rule_text(3600, levels=1200, replicated=1200)
