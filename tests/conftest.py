@@ -43,7 +43,7 @@ def sensor(fit_service):
 
 @pytest.fixture(scope="module")
 def browser():
-    """Debian's headless Chromium for one test module (a test file may define its own instead)."""
+    """Debian's headless Chromium for one test module."""
     from browser_support import browser_problem, chromium
 
     problem = browser_problem()

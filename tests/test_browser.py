@@ -13,14 +13,12 @@ import pytest
 from browser_support import (
     ARTIFACTS,
     ServerThread,
-    browser_problem,
     chart_title,
-    chromium,
     png_size,
     trace,
     wait_for_title,
 )
-from conftest import SAMPLES, in_ci
+from conftest import SAMPLES
 
 pytestmark = [pytest.mark.browser, pytest.mark.slow]
 
@@ -36,19 +34,6 @@ def server():
     srv = ServerThread(app.create_app(upload_limit_bytes=UPLOAD_LIMIT).server).start()
     yield srv
     srv.stop()
-
-
-@pytest.fixture(scope="module")
-def browser():
-    problem = browser_problem()
-    if problem:
-        if in_ci():
-            pytest.fail(f"browser tests must run in CI, but {problem}", pytrace=False)
-        pytest.skip(problem)
-    from playwright.sync_api import sync_playwright
-
-    with sync_playwright() as p, chromium(p) as b:
-        yield b
 
 
 @pytest.fixture()

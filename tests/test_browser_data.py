@@ -14,8 +14,7 @@ from urllib.parse import parse_qs, urlsplit
 
 import numpy as np
 import pytest
-from browser_support import ARTIFACTS, browser_problem, chart_title, chromium, trace, wait_for_title
-from conftest import in_ci
+from browser_support import ARTIFACTS, chart_title, trace, wait_for_title
 
 pytestmark = [pytest.mark.browser, pytest.mark.slow]
 
@@ -30,19 +29,6 @@ def server():
     srv = make_server(create_app(None), host="127.0.0.1", port=0, threads=4).start()
     yield srv
     srv.stop()
-
-
-@pytest.fixture(scope="module")
-def browser():
-    problem = browser_problem()
-    if problem:
-        if in_ci():
-            pytest.fail(f"browser tests must run in CI, but {problem}", pytrace=False)
-        pytest.skip(problem)
-    from playwright.sync_api import sync_playwright
-
-    with sync_playwright() as p, chromium(p) as b:
-        yield b
 
 
 def open_page(browser, url: str, width: int = 1440):

@@ -13,8 +13,7 @@ The calibration file with long names is invented for this test.
 from __future__ import annotations
 
 import pytest
-from browser_support import ARTIFACTS, ServerThread, browser_problem, chromium, wait_for_title
-from conftest import in_ci
+from browser_support import ARTIFACTS, ServerThread, wait_for_title
 
 pytestmark = [pytest.mark.browser, pytest.mark.slow]
 
@@ -77,19 +76,6 @@ def server():
     srv = ServerThread(app.create_app().server).start()
     yield srv
     srv.stop()
-
-
-@pytest.fixture(scope="module")
-def browser():
-    problem = browser_problem()
-    if problem:
-        if in_ci():
-            pytest.fail(f"browser tests must run in CI, but {problem}", pytrace=False)
-        pytest.skip(problem)
-    from playwright.sync_api import sync_playwright
-
-    with sync_playwright() as p, chromium(p) as b:
-        yield b
 
 
 def long_names_csv(path):

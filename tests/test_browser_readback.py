@@ -12,8 +12,8 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from browser_support import ARTIFACTS, ServerThread, browser_problem, chart_title, chromium, wait_for_title
-from conftest import SAMPLES, in_ci
+from browser_support import ARTIFACTS, ServerThread, chart_title, wait_for_title
+from conftest import SAMPLES
 
 pytestmark = [pytest.mark.browser, pytest.mark.slow]
 
@@ -42,19 +42,6 @@ def server():
     srv = ServerThread(app.create_app(upload_limit_bytes=1 << 20).server).start()
     yield srv
     srv.stop()
-
-
-@pytest.fixture(scope="module")
-def browser():
-    problem = browser_problem()
-    if problem:
-        if in_ci():
-            pytest.fail(f"browser tests must run in CI, but {problem}", pytrace=False)
-        pytest.skip(problem)
-    from playwright.sync_api import sync_playwright
-
-    with sync_playwright() as p, chromium(p) as b:
-        yield b
 
 
 def open_page(browser, server, width: int = 1500):
