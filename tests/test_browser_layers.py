@@ -29,6 +29,18 @@ COUNT_REDRAWS = """() => {
         gd.on('plotly_afterplot', () => { window.__redraws[id] += 1; });
         gd.on('plotly_animated', () => { window.__redraws[id + ' transitions'] += 1; });
     });
+    // the counts as each key press's curve is drawn, before the degree rests and the page
+    // follows it (the settled degree may rightly redraw the points layer's review rings)
+    document.querySelector('#fit-chart .js-plotly-plot').on('plotly_animated', () => {
+        window.__atPress = Object.assign({}, window.__redraws);
+    });
+}"""
+
+# true once no Dash output has been pending for a second (Dash marks them data-dash-is-loading)
+QUIET = """() => {
+    const now = performance.now();
+    if (document.querySelector('[data-dash-is-loading]')) { window.__busyAt = now; }
+    return now - (window.__busyAt || 0) > 1000;
 }"""
 
 
@@ -78,7 +90,7 @@ def test_a_key_press_redraws_the_curve_layer_only(browser, server):
         assert types[:2] == ["heatmap", "heatmap"]  # 20,000 rows: training and test densities
         assert "20,000 rows as a density" in page.inner_text("#fit-stack")
         page.locator("#degree [role=slider]").focus()
-        page.wait_for_timeout(1500)  # the settled work of the first draw is over
+        page.wait_for_function(QUIET, polling=100)  # the settled work of the first draw is over
         page.evaluate(COUNT_REDRAWS)
         before = trace(page, FIT, CURVE)["y"]
         for key in ("ArrowRight", "ArrowRight", "ArrowLeft"):
@@ -97,7 +109,7 @@ def test_a_key_press_redraws_the_curve_layer_only(browser, server):
         page.wait_for_function(
             "(d) => document.querySelector('#error-chart .js-plotly-plot')._fullData[3].x[0] === d", arg=d
         )
-        redraws = page.evaluate("() => window.__redraws")
+        redraws = page.evaluate("() => window.__atPress")
         assert redraws["fit-chart transitions"] >= 3, redraws  # one per key press
         assert redraws["fit-points"] == 0 and redraws["fit-points transitions"] == 0, redraws  # not touched
         # once the degree rests, the page follows: the model card and the address
