@@ -224,8 +224,8 @@ def dropped_line(reason: str, count: int, lines) -> str:
 def rows_left_out_head(x: str, y: str, total: int) -> str:
     if not total:
         return f"Every row has usable values of x {echo(x)} and y {echo(y)}."
-    rows = "1 row" if total == 1 else f"{fmt_count(total)} rows"
-    return f"With x {echo(x)} and y {echo(y)}, {rows} are left out:"
+    rows = "1 row is" if total == 1 else f"{fmt_count(total)} rows are"
+    return f"With x {echo(x)} and y {echo(y)}, {rows} left out:"
 
 
 def column_choice(x: str, y: str, engine_note: str | None) -> str:

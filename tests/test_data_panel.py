@@ -309,3 +309,8 @@ def test_a_view_of_another_sheet_reads_that_sheet_then_applies(fit_service):
     other = data.on_sheet(fit_service, first["sheet"], up)["dataset"]
     out = data.on_dataset(fit_service, other, "", first["pending"])
     assert (out["sheet"], out["mode"], out["folds"], out["degree"], out["pending"]) == ("run B", "kfold", 4, 1, None)
+
+
+def test_one_row_left_out_reads_in_the_singular():
+    assert text.rows_left_out_head("x", "y", 1).endswith("1 row is left out:")
+    assert text.rows_left_out_head("x", "y", 2).endswith("2 rows are left out:")
