@@ -119,7 +119,7 @@ def sweep_notes(view: SplitView) -> list[str]:
     """The sweeps' own notes (each once) and the rows the column choice left out."""
     notes = list(view.sweep.warnings) + [w for w in view.steady.warnings if w not in view.sweep.warnings]
     if view.rows_dropped:
-        notes.append(f"{fmt_count(view.rows_dropped)} rows were left out with these columns (see the intake report).")
+        notes.append(rows_dropped_note(view.rows_dropped))
     return notes
 
 
@@ -217,15 +217,25 @@ def lines_list(lines, count: int) -> str:
 
 def dropped_line(reason: str, count: int, lines) -> str:
     """One intake-report line for one reason rows were left out, with their line numbers."""
-    rows = "1 row" if count == 1 else f"{fmt_count(count)} rows"
-    return f"{reason[:1].upper()}{reason[1:]} ({rows}): {lines_list(lines, count)}."
+    return f"{reason[:1].upper()}{reason[1:]} ({row_count(count)}): {lines_list(lines, count)}."
 
 
 def rows_left_out_head(x: str, y: str, total: int) -> str:
     if not total:
         return f"Every row has usable values of x {echo(x)} and y {echo(y)}."
-    rows = "1 row is" if total == 1 else f"{fmt_count(total)} rows are"
-    return f"With x {echo(x)} and y {echo(y)}, {rows} left out:"
+    verb = "is" if total == 1 else "are"
+    return f"With x {echo(x)} and y {echo(y)}, {row_count(total)} {verb} left out:"
+
+
+def row_count(n: int) -> str:
+    """'1 row', '2 rows', '12,000 rows'."""
+    return "1 row" if n == 1 else f"{fmt_count(n)} rows"
+
+
+def rows_dropped_note(n: int) -> str:
+    """The sweeps' note on rows the column choice left out."""
+    verb = "was" if n == 1 else "were"
+    return f"{row_count(n)} {verb} left out with these columns (see the intake report)."
 
 
 def column_choice(x: str, y: str, engine_note: str | None) -> str:
@@ -287,7 +297,7 @@ def labelled_sweep_notes(view: SplitView) -> list[str]:
             continue
         notes.append(f"{verdict}: {w}")
     if view.rows_dropped:
-        notes.append(f"{fmt_count(view.rows_dropped)} rows were left out with these columns (see the intake report).")
+        notes.append(rows_dropped_note(view.rows_dropped))
     return notes
 
 

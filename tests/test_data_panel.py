@@ -314,3 +314,5 @@ def test_a_view_of_another_sheet_reads_that_sheet_then_applies(fit_service):
 def test_one_row_left_out_reads_in_the_singular():
     assert text.rows_left_out_head("x", "y", 1).endswith("1 row is left out:")
     assert text.rows_left_out_head("x", "y", 2).endswith("2 rows are left out:")
+    assert text.rows_dropped_note(1).startswith("1 row was left out")
+    assert text.rows_dropped_note(3).startswith("3 rows were left out")
