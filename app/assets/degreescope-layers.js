@@ -137,7 +137,8 @@
         const dot = mine && mine.querySelector("path.point");
         const py = fl.yaxis.c2p(y);
         if (!dot || !Number.isFinite(py)) { return false; }  // the ring appears: plotly draws it
-        col.setAttribute("transform", "translate(" + (fl.xaxis.c2p(d) - fl.xaxis.c2p(sh[0].x0 + 0.4)) + ",0)");
+        const drawn = (sh[0].x0 + sh[0].x1) / 2;  // the column's centre where plotly put it
+        col.setAttribute("transform", "translate(" + (fl.xaxis.c2p(d) - fl.xaxis.c2p(drawn)) + ",0)");
         dot.setAttribute("transform", "translate(" + fl.xaxis.c2p(d) + "," + py + ")");
         return true;
     }
